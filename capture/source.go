@@ -1,0 +1,58 @@
+// Package capture reads slow-motion clips of load tests on the CPU: video
+// files through OpenCV's FFmpeg backend and folders of numbered stills. Frames
+// stream one at a time, so memory stays bounded whatever the clip length.
+// Every time this package reports is real time, t = frame / capture rate.
+package capture
+
+import (
+	"fmt"
+
+	"gocv.io/x/gocv"
+)
+
+// Info describes an opened clip.
+type Info struct {
+	// Path is the clip file or image folder.
+	Path string
+	// Width and Height are the frame size in pixels.
+	Width, Height int
+	// Codec is the four-character codec code, or the image format for a folder.
+	Codec string
+	// ContainerFPS is the playback rate stored in the container (0 when unknown).
+	ContainerFPS float64
+	// FrameCount is the number of frames; see CountSource for how it was found.
+	FrameCount int
+	// CountSource says where FrameCount came from: "container" or "counted".
+	CountSource string
+}
+
+// Source streams the frames of a clip. Frame numbers start at 0.
+type Source interface {
+	// Info describes the clip.
+	Info() Info
+	// Read decodes the next frame into dst (BGR, 8 bits) and returns its frame
+	// number. It returns io.EOF after the last frame and a *FrameError for a
+	// frame that could not be decoded; reading may go on after a FrameError.
+	Read(dst *gocv.Mat) (int, error)
+	// Seek makes the next Read return exactly the given frame.
+	Seek(frame int) error
+	// Close releases the decoder.
+	Close() error
+}
+
+// FrameError is a problem with one frame of a clip.
+type FrameError struct {
+	// Path is the clip.
+	Path string
+	// Frame is the frame number.
+	Frame int
+	// Err is the problem.
+	Err error
+}
+
+func (e *FrameError) Error() string {
+	return fmt.Sprintf("%s frame %d: %v", e.Path, e.Frame, e.Err)
+}
+
+// Unwrap returns the underlying problem.
+func (e *FrameError) Unwrap() error { return e.Err }
