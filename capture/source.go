@@ -22,8 +22,12 @@ type Info struct {
 	ContainerFPS float64
 	// FrameCount is the number of frames; see CountSource for how it was found.
 	FrameCount int
-	// CountSource says where FrameCount came from: "container" or "counted".
+	// CountSource says where FrameCount came from: "container" (stated by the
+	// file) or "counted" (found by decoding, or from an image folder's names).
 	CountSource string
+	// Warnings are problems found on opening that do not stop reading, such
+	// as a gap in an image folder's numbering.
+	Warnings []string
 }
 
 // Source streams the frames of a clip. Frame numbers start at 0.

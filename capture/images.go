@@ -1,0 +1,176 @@
+package capture
+
+import (
+	"errors"
+	"fmt"
+	"image"
+	_ "image/jpeg" // header decoding for the size check
+	_ "image/png"
+	"io"
+	"math/big"
+	"os"
+	"path/filepath"
+	"regexp"
+	"sort"
+	"strings"
+
+	"gocv.io/x/gocv"
+	_ "golang.org/x/image/tiff"
+)
+
+// imageExts are the still-image file types read from a folder, by extension.
+var imageExts = map[string]string{
+	".png": "png", ".jpg": "jpeg", ".jpeg": "jpeg", ".tif": "tiff", ".tiff": "tiff",
+}
+
+// lastNumber finds the last run of digits in a file name (without extension).
+var lastNumber = regexp.MustCompile(`[0-9]+`)
+
+// imageSource reads a folder of numbered stills, one file per frame. The
+// number in each file name (its last run of digits) is its frame number,
+// counted from the lowest; a number with no file is a missing frame.
+type imageSource struct {
+	info  Info
+	files []string // by frame number; "" where the numbering skips
+	next  int
+}
+
+// openImages opens a folder of numbered stills (PNG, JPEG or TIFF). Files are
+// ordered by the number in their names (natural order: img_2 before
+// img_10). Duplicate numbers, unnumbered images, unreadable headers and
+// mixed frame sizes are errors naming the file; a gap in the numbering is a
+// warning in Info.Warnings and a *FrameError when the missing frame is read.
+func openImages(dir string, opt Options) (Source, error) {
+	entries, err := os.ReadDir(dir)
+	if err != nil {
+		return nil, &ClipError{Path: dir, Err: err}
+	}
+	type still struct {
+		name string
+		num  *big.Int
+	}
+	var stills []still
+	formats := map[string]bool{}
+	for _, e := range entries {
+		if e.IsDir() {
+			continue
+		}
+		ext := strings.ToLower(filepath.Ext(e.Name()))
+		format, ok := imageExts[ext]
+		if !ok {
+			continue
+		}
+		digits := lastNumber.FindAllString(strings.TrimSuffix(e.Name(), filepath.Ext(e.Name())), -1)
+		if len(digits) == 0 {
+			return nil, &ClipError{Path: dir, Err: fmt.Errorf("image %s has no frame number in its name", e.Name())}
+		}
+		n, _ := new(big.Int).SetString(digits[len(digits)-1], 10)
+		stills = append(stills, still{e.Name(), n})
+		formats[format] = true
+	}
+	if len(stills) == 0 {
+		return nil, &ClipError{Path: dir, Err: errors.New("no PNG, JPEG or TIFF images in the folder")}
+	}
+	sort.Slice(stills, func(i, j int) bool { return stills[i].num.Cmp(stills[j].num) < 0 })
+	for i := 1; i < len(stills); i++ {
+		if stills[i].num.Cmp(stills[i-1].num) == 0 {
+			return nil, &ClipError{Path: dir, Err: fmt.Errorf("images %s and %s have the same frame number %s", stills[i-1].name, stills[i].name, stills[i].num)}
+		}
+	}
+	first, last := stills[0].num, stills[len(stills)-1].num
+	span := new(big.Int).Sub(last, first)
+	if !span.IsInt64() || span.Int64() > int64(10*len(stills)+1000) {
+		return nil, &ClipError{Path: dir, Err: fmt.Errorf("the numbering runs from %s (%s) to %s (%s) with only %d images; are these one clip?",
+			first, stills[0].name, last, stills[len(stills)-1].name, len(stills))}
+	}
+	s := &imageSource{files: make([]string, span.Int64()+1)}
+	var warnings []string
+	for i, st := range stills {
+		f := new(big.Int).Sub(st.num, first).Int64()
+		s.files[f] = filepath.Join(dir, st.name)
+		if i > 0 {
+			prev := new(big.Int).Sub(stills[i-1].num, first).Int64()
+			if f > prev+1 {
+				warnings = append(warnings, fmt.Sprintf("numbering skips from %s to %s: frames %d to %d are missing", stills[i-1].name, st.name, prev+1, f-1))
+			}
+		}
+	}
+	// Check every image's size from its header (cheap: no pixels decoded).
+	w, h := 0, 0
+	for _, st := range stills {
+		p := filepath.Join(dir, st.name)
+		cw, ch, err := imageSize(p)
+		if err != nil {
+			return nil, &ClipError{Path: dir, Err: fmt.Errorf("image %s: %w", st.name, err)}
+		}
+		if w == 0 {
+			w, h = cw, ch
+		} else if cw != w || ch != h {
+			return nil, &ClipError{Path: dir, Err: fmt.Errorf("image %s is %dx%d but %s is %dx%d: mixed frame sizes", st.name, cw, ch, stills[0].name, w, h)}
+		}
+	}
+	var names []string
+	for f := range formats {
+		names = append(names, f)
+	}
+	sort.Strings(names)
+	s.info = Info{
+		Path:         dir,
+		Width:        w,
+		Height:       h,
+		Codec:        strings.Join(names, "+"),
+		ContainerFPS: opt.ImageFPS,
+		FrameCount:   len(s.files),
+		CountSource:  "counted",
+		Warnings:     warnings,
+	}
+	return s, nil
+}
+
+// imageSize reads the frame size from an image file's header.
+func imageSize(path string) (int, int, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, 0, err
+	}
+	defer f.Close()
+	cfg, _, err := image.DecodeConfig(f)
+	if err != nil {
+		return 0, 0, fmt.Errorf("not a readable image: %w", err)
+	}
+	return cfg.Width, cfg.Height, nil
+}
+
+func (s *imageSource) Info() Info { return s.info }
+
+func (s *imageSource) Read(dst *gocv.Mat) (int, error) {
+	if s.next >= len(s.files) {
+		return s.next, io.EOF
+	}
+	f := s.next
+	s.next++
+	p := s.files[f]
+	if p == "" {
+		return f, &FrameError{Path: s.info.Path, Frame: f, Err: errors.New("no image with this frame number (gap in the numbering)")}
+	}
+	img := gocv.IMRead(p, gocv.IMReadColor)
+	defer img.Close()
+	if img.Empty() {
+		return f, &FrameError{Path: p, Frame: f, Err: errors.New("image could not be decoded")}
+	}
+	if img.Cols() != s.info.Width || img.Rows() != s.info.Height {
+		return f, &FrameError{Path: p, Frame: f, Err: fmt.Errorf("image is %dx%d, the clip is %dx%d", img.Cols(), img.Rows(), s.info.Width, s.info.Height)}
+	}
+	img.CopyTo(dst)
+	return f, nil
+}
+
+func (s *imageSource) Seek(frame int) error {
+	if frame < 0 || frame >= len(s.files) {
+		return &FrameError{Path: s.info.Path, Frame: frame, Err: fmt.Errorf("seek: no such frame (the clip has frames 0 to %d)", len(s.files)-1)}
+	}
+	s.next = frame
+	return nil
+}
+
+func (s *imageSource) Close() error { return nil }
