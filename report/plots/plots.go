@@ -1,0 +1,181 @@
+// Package plots draws the report's charts with gonum/plot and saves each as
+// PNG and SVG. A chart is a set of named series (plain slices; NaN breaks a
+// line) plus vertical marks for events.
+package plots
+
+import (
+	"fmt"
+	"image/color"
+	"math"
+	"os"
+	"path/filepath"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/plotutil"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+)
+
+// Series is one line of a chart.
+type Series struct {
+	// Name is shown in the legend ("" = not in the legend).
+	Name string
+	// X and Y are the points; NaN in either breaks the line.
+	X, Y []float64
+	// Dots draws a dot at each point as well as the line.
+	Dots bool
+}
+
+// Len returns the number of points.
+func (s Series) Len() int { return len(s.X) }
+
+// XY returns point i.
+func (s Series) XY(i int) (float64, float64) { return s.X[i], s.Y[i] }
+
+// Mark is a vertical line at an x value, such as an event time.
+type Mark struct {
+	// X is where the line stands.
+	X float64
+	// Label is written at the top of the line.
+	Label string
+	// Strong draws the line in red instead of grey.
+	Strong bool
+}
+
+// Chart is one figure.
+type Chart struct {
+	// Title, XLabel and YLabel are the texts around the plot.
+	Title, XLabel, YLabel string
+	// Series are the lines, drawn in order.
+	Series []Series
+	// Marks are vertical lines across the plot.
+	Marks []Mark
+	// WidthCM and HeightCM are the figure size; default 16 x 9 cm.
+	WidthCM, HeightCM float64
+}
+
+// Save writes the chart as dir/name.png and dir/name.svg and returns the two
+// file names (relative to dir).
+func (c Chart) Save(dir, name string) ([]string, error) {
+	p, err := c.plot()
+	if err != nil {
+		return nil, fmt.Errorf("plot %s: %w", name, err)
+	}
+	w, h := c.WidthCM, c.HeightCM
+	if w <= 0 {
+		w = 16
+	}
+	if h <= 0 {
+		h = 9
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return nil, fmt.Errorf("plot %s: %w", name, err)
+	}
+	var files []string
+	for _, ext := range []string{".png", ".svg"} {
+		f := name + ext
+		if err := p.Save(vg.Length(w)*vg.Centimeter, vg.Length(h)*vg.Centimeter, filepath.Join(dir, f)); err != nil {
+			return nil, fmt.Errorf("plot %s: %w", f, err)
+		}
+		files = append(files, f)
+	}
+	return files, nil
+}
+
+func (c Chart) plot() (*plot.Plot, error) {
+	p := plot.New()
+	p.Title.Text = c.Title
+	p.X.Label.Text = c.XLabel
+	p.Y.Label.Text = c.YLabel
+	p.Add(plotter.NewGrid())
+	p.Legend.Top = true
+	any := false
+	for i, s := range c.Series {
+		if len(s.X) != len(s.Y) {
+			return nil, fmt.Errorf("series %q: %d x values, %d y values", s.Name, len(s.X), len(s.Y))
+		}
+		col := plotutil.Color(i)
+		first := true
+		for _, seg := range segments(s) {
+			any = true
+			l, err := plotter.NewLine(seg)
+			if err != nil {
+				return nil, fmt.Errorf("series %q: %w", s.Name, err)
+			}
+			l.Color = col
+			l.Width = vg.Points(1.2)
+			p.Add(l)
+			if s.Dots {
+				sc, err := plotter.NewScatter(seg)
+				if err != nil {
+					return nil, fmt.Errorf("series %q: %w", s.Name, err)
+				}
+				sc.Color = col
+				sc.Radius = vg.Points(1.5)
+				sc.Shape = draw.CircleGlyph{}
+				p.Add(sc)
+			}
+			if first && s.Name != "" {
+				p.Legend.Add(s.Name, l)
+				first = false
+			}
+		}
+	}
+	if !any {
+		// An empty chart still gets axes.
+		p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, 1, 0, 1
+	}
+	if len(c.Marks) > 0 {
+		p.Add(&marks{marks: c.Marks})
+	}
+	return p, nil
+}
+
+// segments splits a series at NaN points.
+func segments(s Series) []plotter.XYs {
+	var out []plotter.XYs
+	var cur plotter.XYs
+	for i := range s.X {
+		x, y := s.X[i], s.Y[i]
+		if math.IsNaN(x) || math.IsNaN(y) || math.IsInf(x, 0) || math.IsInf(y, 0) {
+			if len(cur) > 0 {
+				out = append(out, cur)
+				cur = nil
+			}
+			continue
+		}
+		cur = append(cur, plotter.XY{X: x, Y: y})
+	}
+	if len(cur) > 0 {
+		out = append(out, cur)
+	}
+	return out
+}
+
+// marks draws vertical lines with labels.
+type marks struct{ marks []Mark }
+
+// Plot implements plot.Plotter.
+func (m *marks) Plot(c draw.Canvas, plt *plot.Plot) {
+	trX, _ := plt.Transforms(&c)
+	sty := plt.Legend.TextStyle
+	sty.Rotation = math.Pi / 2
+	sty.XAlign = draw.XRight
+	sty.YAlign = draw.YTop
+	for _, mk := range m.marks {
+		x := trX(mk.X)
+		if !c.ContainsX(x) {
+			continue
+		}
+		ls := draw.LineStyle{Color: color.Gray{Y: 120}, Width: vg.Points(0.8), Dashes: []vg.Length{vg.Points(3), vg.Points(2)}}
+		if mk.Strong {
+			ls.Color = color.RGBA{R: 200, A: 255}
+		}
+		c.StrokeLine2(ls, x, c.Min.Y, x, c.Max.Y)
+		if mk.Label != "" {
+			sty.Color = ls.Color
+			c.FillText(sty, vg.Point{X: x + vg.Points(1), Y: c.Max.Y - vg.Points(2)}, mk.Label)
+		}
+	}
+}
