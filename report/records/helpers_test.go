@@ -2,6 +2,7 @@ package records
 
 import (
 	"encoding/json"
+	"fmt"
 	"image"
 	"image/color"
 	"image/png"
@@ -67,7 +68,7 @@ func fakeReport(t *testing.T, dir string, seed uint8, peak float64, mode, first 
 		Version:        report.ResultVersion,
 		Tool:           "failframe test",
 		CreatedAt:      "2026-03-15T10:00:00Z",
-		Clip:           report.ClipFacts{Path: "tower.avi", Width: 320, Height: 240, Codec: "MJPG", ContainerFPS: 30, FrameCount: 200, LastFrame: 199},
+		Clip:           report.ClipFacts{Path: fmt.Sprintf("tower-%d.avi", seed), Width: 320, Height: 240, Codec: "MJPG", ContainerFPS: 30, FrameCount: 200, LastFrame: 199},
 		CaptureFPS:     960,
 		CaptureFPSFrom: "marks",
 		Events:         []report.Event{{Kind: "onset", Member: first, Frame: 120, TimeS: 0.125, LoadG: fptr(peak * 0.9), Detail: "bow grows"}},
