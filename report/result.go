@@ -47,6 +47,12 @@ type Result struct {
 	MassG *float64 `json:"mass_g,omitempty"`
 	// Efficiency is peak load over structure mass (both in grams); nil when either is missing.
 	Efficiency *float64 `json:"efficiency,omitempty"`
+	// Members are per-member maxima before collapse.
+	Members []MemberSummary `json:"members"`
+	// LoadLog describes the load log read; nil without a log.
+	LoadLog *LoadLogFacts `json:"load_log,omitempty"`
+	// Figures are the plots and evidence frames, in the order the page shows them.
+	Figures []Figure `json:"figures"`
 	// Warnings are things the reader should know (rates guessed, points lost, unobservable twist).
 	Warnings []string `json:"warnings"`
 	// Files lists the report's files relative to the report folder.
@@ -112,4 +118,50 @@ type Alignment struct {
 	UncertaintyS float64 `json:"uncertainty_s"`
 	// Detail says how it was found.
 	Detail string `json:"detail"`
+}
+
+// MemberSummary is one member's largest deformation before collapse.
+type MemberSummary struct {
+	// ID is the member's id from the marks file.
+	ID string `json:"id"`
+	// Kind is leg, brace or block.
+	Kind string `json:"kind"`
+	// LengthMM is the member's length in the reference frame, mm (0 without a scale).
+	LengthMM float64 `json:"length_mm"`
+	// MaxBowMM is the largest absolute bow (sideways deflection of the middle from the chord), mm.
+	MaxBowMM float64 `json:"max_bow_mm"`
+	// MaxBowPct is MaxBowMM as a percentage of the length.
+	MaxBowPct float64 `json:"max_bow_pct"`
+	// MaxStrainPct is the largest absolute chord strain, percent (shortening positive or negative as measured).
+	MaxStrainPct float64 `json:"max_strain_pct"`
+	// OnsetFrame is the frame of the member's onset event, -1 when none.
+	OnsetFrame int `json:"onset_frame"`
+	// BreakFrame is the frame of the member's break event, -1 when none.
+	BreakFrame int `json:"break_frame"`
+}
+
+// LoadLogFacts describes the load log read.
+type LoadLogFacts struct {
+	// Path is the log's path as given.
+	Path string `json:"path"`
+	// Detected says which columns and units were used and why.
+	Detected string `json:"detected"`
+	// Samples is the number of samples used.
+	Samples int `json:"samples"`
+	// PeriodS is the median sampling period, seconds.
+	PeriodS float64 `json:"period_s"`
+	// SkippedLines are the line numbers of bad lines skipped.
+	SkippedLines []int `json:"skipped_lines"`
+}
+
+// Figure is one image in the report.
+type Figure struct {
+	// File is the PNG's path relative to the report folder.
+	File string `json:"file"`
+	// SVG is the vector copy's path ("" for evidence frames).
+	SVG string `json:"svg,omitempty"`
+	// Kind is plot or evidence.
+	Kind string `json:"kind"`
+	// Caption says what the image shows.
+	Caption string `json:"caption"`
 }
