@@ -1,0 +1,273 @@
+package synth
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+)
+
+// Truth is the exact geometry of a synthetic clip, written as truth.json.
+// Twist, sway and settlement are relative to frame 0, where the tower has
+// its nominal shape.
+type Truth struct {
+	// CaptureFPS is the true capture rate.
+	CaptureFPS float64 `json:"capture_fps"`
+	// ContainerFPS is the playback rate written into the clip files.
+	ContainerFPS float64 `json:"container_fps"`
+	// Width and Height are the frame size in pixels.
+	Width  int `json:"width"`
+	Height int `json:"height"`
+	// Frames is the number of frames.
+	Frames int `json:"frames"`
+	// Seed is the scenario's seed.
+	Seed int64 `json:"seed"`
+	// Bracing is the bracing pattern.
+	Bracing string `json:"bracing"`
+	// Camera is the pinhole camera that drew the clip.
+	Camera TruthCamera `json:"camera"`
+	// Tower is the tower's nominal shape.
+	Tower TruthTower `json:"tower"`
+	// Points are every named point (joints, brace points, crossings, block
+	// stickers) with its image position in every frame.
+	Points []TruthPoint `json:"points"`
+	// Levels are the per-level twist, sway and settlement, levels 0..n.
+	Levels []TruthLevel `json:"levels"`
+	// Members are the legs and braces with their chord and bow per frame.
+	Members []TruthMember `json:"members"`
+	// FirstMember is the member that buckles first ("" for a twist failure).
+	FirstMember string `json:"first_member"`
+	// OnsetFrame is the first frame where the first member's bow exceeds 0.5 %
+	// of its length (for a twist failure: where the twist starts to run away).
+	OnsetFrame int `json:"onset_frame"`
+	// BreakFrame is the first frame after which the first member is broken
+	// (-1 for a twist failure).
+	BreakFrame int `json:"break_frame"`
+	// CollapseFrame is the frame where the global collapse starts.
+	CollapseFrame int `json:"collapse_frame"`
+	// CollapseFrames is how many frames the collapse takes.
+	CollapseFrames int `json:"collapse_frames"`
+	// FailureMode is one of tower_twist, leg_full_height, leg_between_braces, brace_buckling.
+	FailureMode string `json:"failure_mode"`
+	// MassG is the tower's mass in grams.
+	MassG float64 `json:"mass_g"`
+	// LoadOffsetS is the load log's clock offset: video_time = log_time + load_offset_s.
+	LoadOffsetS float64 `json:"load_offset_s"`
+	// LoadPeriodS is the logger's nominal sample period.
+	LoadPeriodS float64 `json:"load_period_s"`
+	// PeakLoadG is the noise-free load at collapse, the peak of the log.
+	PeakLoadG float64 `json:"peak_load_g"`
+	// LoadAtOnsetG is the noise-free load at the onset frame.
+	LoadAtOnsetG float64 `json:"load_at_onset_g"`
+	// LoadAtBreakG is the noise-free load at the break frame (0 for a twist failure).
+	LoadAtBreakG float64 `json:"load_at_break_g"`
+	// Efficiency is the peak load over the tower's mass.
+	Efficiency float64 `json:"efficiency"`
+}
+
+// TruthCamera describes the camera: intrinsics and the world-to-camera
+// transform as OpenCV's projectPoints takes them (world = tower coordinates
+// in mm, no lens distortion).
+type TruthCamera struct {
+	FocalPX     float64    `json:"focal_px"`
+	CX          float64    `json:"cx"`
+	CY          float64    `json:"cy"`
+	DistanceMM  float64    `json:"distance_mm"`
+	HeightMM    float64    `json:"height_mm"`
+	AzimuthDeg  float64    `json:"azimuth_deg"`
+	PositionMM  [3]float64 `json:"position_mm"`
+	Rvec        [3]float64 `json:"rvec"`
+	TvecMM      [3]float64 `json:"tvec_mm"`
+	RightVector [3]float64 `json:"right"`
+}
+
+// TruthTower is the nominal tower shape.
+type TruthTower struct {
+	BaseMM   float64   `json:"base_mm"`
+	TopMM    float64   `json:"top_mm"`
+	HeightMM float64   `json:"height_mm"`
+	LevelsMM []float64 `json:"levels_mm"`
+}
+
+// TruthPoint is one named point's image position in every frame.
+type TruthPoint struct {
+	ID string `json:"id"`
+	// Leg and Level are set for leg joints.
+	Leg   string `json:"leg,omitempty"`
+	Level *int   `json:"level,omitempty"`
+	// Member is set for points inside a member (mid-spans, quarter points).
+	Member string `json:"member,omitempty"`
+	// Marker is true when a marker sticker is drawn on the point (the faces
+	// toward the camera); only those points are in marks.yaml.
+	Marker bool `json:"marker"`
+	// PX is the position in pixels in every frame (x right, y down).
+	PX [][2]float64 `json:"px"`
+}
+
+// TruthLevel is one level's motion; all series have one value per frame.
+type TruthLevel struct {
+	Level int     `json:"level"`
+	ZMM   float64 `json:"z_mm"`
+	// TwistDeg is the rotation about the vertical axis, counter-clockwise from above positive.
+	TwistDeg []float64 `json:"twist_deg"`
+	// SwayMM is the level centre's displacement along the camera's horizontal right vector.
+	SwayMM []float64 `json:"sway_mm"`
+	// SettleMM is the level centre's vertical displacement, positive down.
+	SettleMM []float64 `json:"settle_mm"`
+}
+
+// TruthMember is one member's shape over time.
+type TruthMember struct {
+	ID     string   `json:"id"`
+	Kind   string   `json:"kind"`
+	Points []string `json:"points"`
+	// LengthMM is the nominal length between its end points.
+	LengthMM float64 `json:"length_mm"`
+	// ChordMM is the distance between its end points per frame.
+	ChordMM []float64 `json:"chord_mm"`
+	// BowMM is the largest distance of its centre line from the chord per frame.
+	BowMM []float64 `json:"bow_mm"`
+}
+
+// Point returns the truth point with the given id.
+func (t *Truth) Point(id string) (*TruthPoint, bool) {
+	for i := range t.Points {
+		if t.Points[i].ID == id {
+			return &t.Points[i], true
+		}
+	}
+	return nil, false
+}
+
+// Member returns the truth member with the given id.
+func (t *Truth) Member(id string) (*TruthMember, bool) {
+	for i := range t.Members {
+		if t.Members[i].ID == id {
+			return &t.Members[i], true
+		}
+	}
+	return nil, false
+}
+
+// LoadTruth reads a truth.json file.
+func LoadTruth(path string) (*Truth, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("read truth %s: %w", path, err)
+	}
+	var t Truth
+	if err := json.Unmarshal(data, &t); err != nil {
+		return nil, fmt.Errorf("read truth %s: %w", path, err)
+	}
+	if t.Frames <= 0 || len(t.Points) == 0 {
+		return nil, fmt.Errorf("read truth %s: no frames or points", path)
+	}
+	for _, p := range t.Points {
+		if len(p.PX) != t.Frames {
+			return nil, fmt.Errorf("read truth %s: point %s has %d positions for %d frames", path, p.ID, len(p.PX), t.Frames)
+		}
+	}
+	return &t, nil
+}
+
+func round6(v float64) float64 { return math.Round(v*1e6) / 1e6 }
+
+// computeTruth evaluates the geometry of every frame.
+func (m *model) computeTruth(load *loadModel) *Truth {
+	s := m.s
+	nf := s.Frames
+	t := &Truth{
+		CaptureFPS: s.CaptureFPS, ContainerFPS: s.ContainerFPS,
+		Width: s.Width, Height: s.Height, Frames: nf, Seed: s.Seed, Bracing: s.Bracing,
+		Tower: TruthTower{BaseMM: s.BaseMM, TopMM: s.TopMM, HeightMM: s.HeightMM, LevelsMM: append([]float64(nil), m.levelsZ...)},
+		OnsetFrame: s.OnsetFrame, BreakFrame: s.BreakFrame, CollapseFrame: s.CollapseFrame,
+		CollapseFrames: int(m.nCollapse), FailureMode: m.mode, MassG: s.MassG,
+		PeakLoadG: s.PeakLoadG, Efficiency: s.PeakLoadG / s.MassG,
+	}
+	rot := m.cam.rotation()
+	_ = rot
+	r := m.cam.rows[0]
+	t.Camera = TruthCamera{
+		FocalPX: m.cam.f, CX: m.cam.cx, CY: m.cam.cy,
+		DistanceMM: s.DistanceMM, HeightMM: s.CameraHeightMM, AzimuthDeg: s.AzimuthDeg,
+		PositionMM: [3]float64{m.cam.pos.x, m.cam.pos.y, m.cam.pos.z},
+		Rvec:       m.cam.rvec(), TvecMM: m.cam.tvec(), RightVector: [3]float64{r.x, r.y, r.z},
+	}
+	if m.fail >= 0 {
+		t.FirstMember = m.members[m.fail].id
+	} else {
+		t.BreakFrame = -1
+	}
+	for _, p := range m.points {
+		tp := TruthPoint{ID: p.id, Marker: p.marker, PX: make([][2]float64, nf)}
+		if p.leg != "" {
+			lv := p.level
+			tp.Leg, tp.Level = p.leg, &lv
+		}
+		if p.member >= 0 {
+			tp.Member = m.members[p.member].id
+		}
+		t.Points = append(t.Points, tp)
+	}
+	for k := 0; k <= m.n; k++ {
+		t.Levels = append(t.Levels, TruthLevel{Level: k, ZMM: m.levelsZ[k],
+			TwistDeg: make([]float64, nf), SwayMM: make([]float64, nf), SettleMM: make([]float64, nf)})
+	}
+	for _, mb := range m.members {
+		t.Members = append(t.Members, TruthMember{ID: mb.id, Kind: mb.kind, Points: mb.pointIDs,
+			LengthMM: round6(mb.rest), ChordMM: make([]float64, nf), BowMM: make([]float64, nf)})
+	}
+	for f := 0; f < nf; f++ {
+		ps := m.pose(float64(f))
+		for i := range m.points {
+			x, y, _ := m.cam.project(m.pointPos(i, ps))
+			t.Points[i].PX[f] = [2]float64{round6(x), round6(y)}
+		}
+		for k := 0; k <= m.n; k++ {
+			var c, c0 vec3
+			for l := 0; l < 4; l++ {
+				c = c.add(ps.nodes[jointIndex(m.n, l, k)].scale(0.25))
+				c0 = c0.add(m.nodes[jointIndex(m.n, l, k)].rest.scale(0.25))
+			}
+			var tw float64
+			for l := 0; l < 4; l++ {
+				p := ps.nodes[jointIndex(m.n, l, k)].sub(c)
+				q := m.nodes[jointIndex(m.n, l, k)].rest.sub(c0)
+				d := math.Atan2(p.y, p.x) - math.Atan2(q.y, q.x)
+				d = math.Remainder(d, 2*math.Pi)
+				tw += d / 4
+			}
+			lv := &t.Levels[k]
+			lv.TwistDeg[f] = round6(tw * 180 / math.Pi)
+			lv.SwayMM[f] = round6(c.sub(c0).dot(r))
+			lv.SettleMM[f] = round6(c0.z - c.z)
+		}
+		for mi := range m.members {
+			lines := m.memberShape(mi, ps)
+			first := lines[0][0].p
+			last := lines[len(lines)-1][len(lines[len(lines)-1])-1].p
+			chord := last.sub(first)
+			cl := chord.norm()
+			e := chord.scale(1 / cl)
+			var bow float64
+			for _, l := range lines {
+				for _, sp := range l {
+					d := sp.p.sub(first)
+					perp := d.sub(e.scale(d.dot(e))).norm()
+					bow = math.Max(bow, perp)
+				}
+			}
+			t.Members[mi].ChordMM[f] = round6(cl)
+			t.Members[mi].BowMM[f] = round6(bow)
+		}
+	}
+	if load != nil {
+		t.LoadOffsetS = load.offsetS
+		t.LoadPeriodS = load.periodS
+		t.LoadAtOnsetG = round6(load.at(float64(s.OnsetFrame) / s.CaptureFPS))
+		if m.fail >= 0 {
+			t.LoadAtBreakG = round6(load.at(float64(s.BreakFrame) / s.CaptureFPS))
+		}
+	}
+	return t
+}
