@@ -73,15 +73,15 @@ type model struct {
 	front    [4]bool
 
 	// failure
-	fail        int // member index, -1 for a twist failure
-	mode        string
+	fail         int // member index, -1 for a twist failure
+	mode         string
 	span0, span1 float64
-	sBreak      float64
-	bowDir      vec3
-	bOn, bBreak float64
-	tau, e0     float64
-	kick0       vec3
-	kick1       vec3
+	sBreak       float64
+	bowDir       vec3
+	bOn, bBreak  float64
+	tau, e0      float64
+	kick0        vec3
+	kick1        vec3
 
 	// global motion
 	twistTop   float64 // radians, just before collapse

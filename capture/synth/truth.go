@@ -179,7 +179,7 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 	t := &Truth{
 		CaptureFPS: s.CaptureFPS, ContainerFPS: s.ContainerFPS,
 		Width: s.Width, Height: s.Height, Frames: nf, Seed: s.Seed, Bracing: s.Bracing,
-		Tower: TruthTower{BaseMM: s.BaseMM, TopMM: s.TopMM, HeightMM: s.HeightMM, LevelsMM: append([]float64(nil), m.levelsZ...)},
+		Tower:      TruthTower{BaseMM: s.BaseMM, TopMM: s.TopMM, HeightMM: s.HeightMM, LevelsMM: append([]float64(nil), m.levelsZ...)},
 		OnsetFrame: s.OnsetFrame, BreakFrame: s.BreakFrame, CollapseFrame: s.CollapseFrame,
 		CollapseFrames: int(m.nCollapse), FailureMode: m.mode, MassG: s.MassG,
 		PeakLoadG: s.PeakLoadG, Efficiency: s.PeakLoadG / s.MassG,
