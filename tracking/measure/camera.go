@@ -1,0 +1,251 @@
+package measure
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Pinhole is a 3x4 projection matrix from tower coordinates (plan x, y and
+// height z, mm) to image pixels, fitted from the marked points by the direct
+// linear transform with Hartley's normalisation.
+type Pinhole struct {
+	P [3][4]float64
+	// RMS is the reprojection error of the points it was fitted to, px.
+	RMS float64
+}
+
+// Project maps a tower point to the image; ok is false behind the camera.
+func (c *Pinhole) Project(x, y, z float64) (u, v float64, ok bool) {
+	p := &c.P
+	w := p[2][0]*x + p[2][1]*y + p[2][2]*z + p[2][3]
+	if w == 0 {
+		return math.NaN(), math.NaN(), false
+	}
+	u = (p[0][0]*x + p[0][1]*y + p[0][2]*z + p[0][3]) / w
+	v = (p[1][0]*x + p[1][1]*y + p[1][2]*z + p[1][3]) / w
+	return u, v, true
+}
+
+// FitPinhole fits a projection matrix to at least six points that are not
+// all in one plane: xyz are tower coordinates (mm), uv image positions (px).
+func FitPinhole(xyz [][3]float64, uv [][2]float64) (*Pinhole, error) {
+	n := len(xyz)
+	if n < 6 || len(uv) != n {
+		return nil, fmt.Errorf("camera fit needs at least 6 points with known 3D positions, have %d", n)
+	}
+	// Points must span 3D: smallest principal spread well above zero.
+	var c3 [3]float64
+	for _, p := range xyz {
+		for k := 0; k < 3; k++ {
+			c3[k] += p[k] / float64(n)
+		}
+	}
+	cov := mat.NewSymDense(3, nil)
+	for _, p := range xyz {
+		for a := 0; a < 3; a++ {
+			for b := a; b < 3; b++ {
+				cov.SetSym(a, b, cov.At(a, b)+(p[a]-c3[a])*(p[b]-c3[b])/float64(n))
+			}
+		}
+	}
+	var eig mat.EigenSym
+	if !eig.Factorize(cov, false) {
+		return nil, errors.New("camera fit: eigen decomposition failed")
+	}
+	ev := eig.Values(nil)
+	if ev[0] < 1e-4*ev[2] || ev[0] <= 0 {
+		return nil, errors.New("camera fit: the marked points lie in one plane (mark points on two faces)")
+	}
+	var s3 float64
+	for _, p := range xyz {
+		s3 += math.Sqrt(sq(p[0]-c3[0])+sq(p[1]-c3[1])+sq(p[2]-c3[2])) / float64(n)
+	}
+	s3 = math.Sqrt(3) / s3
+	var c2 [2]float64
+	for _, q := range uv {
+		c2[0] += q[0] / float64(n)
+		c2[1] += q[1] / float64(n)
+	}
+	var s2 float64
+	for _, q := range uv {
+		s2 += math.Hypot(q[0]-c2[0], q[1]-c2[1]) / float64(n)
+	}
+	if s2 == 0 {
+		return nil, errors.New("camera fit: all points at one image position")
+	}
+	s2 = math.Sqrt(2) / s2
+	A := mat.NewDense(2*n, 12, nil)
+	for i := 0; i < n; i++ {
+		X := [4]float64{(xyz[i][0] - c3[0]) * s3, (xyz[i][1] - c3[1]) * s3, (xyz[i][2] - c3[2]) * s3, 1}
+		u := (uv[i][0] - c2[0]) * s2
+		v := (uv[i][1] - c2[1]) * s2
+		for k := 0; k < 4; k++ {
+			A.Set(2*i, k, X[k])
+			A.Set(2*i, 8+k, -u*X[k])
+			A.Set(2*i+1, 4+k, X[k])
+			A.Set(2*i+1, 8+k, -v*X[k])
+		}
+	}
+	var svd mat.SVD
+	if !svd.Factorize(A, mat.SVDFullV) {
+		return nil, errors.New("camera fit: SVD failed")
+	}
+	var V mat.Dense
+	svd.VTo(&V)
+	var Pn [3][4]float64
+	for r := 0; r < 3; r++ {
+		for k := 0; k < 4; k++ {
+			Pn[r][k] = V.At(4*r+k, 11)
+		}
+	}
+	// Denormalise: P = T2^-1 Pn T3.
+	T3 := [4][4]float64{{s3, 0, 0, -s3 * c3[0]}, {0, s3, 0, -s3 * c3[1]}, {0, 0, s3, -s3 * c3[2]}, {0, 0, 0, 1}}
+	T2i := [3][3]float64{{1 / s2, 0, c2[0]}, {0, 1 / s2, c2[1]}, {0, 0, 1}}
+	var PT [3][4]float64
+	for r := 0; r < 3; r++ {
+		for k := 0; k < 4; k++ {
+			for j := 0; j < 4; j++ {
+				PT[r][k] += Pn[r][j] * T3[j][k]
+			}
+		}
+	}
+	cam := &Pinhole{}
+	for r := 0; r < 3; r++ {
+		for k := 0; k < 4; k++ {
+			for j := 0; j < 3; j++ {
+				cam.P[r][k] += T2i[r][j] * PT[j][k]
+			}
+		}
+	}
+	var ss float64
+	for i := 0; i < n; i++ {
+		u, v, ok := cam.Project(xyz[i][0], xyz[i][1], xyz[i][2])
+		if !ok {
+			return nil, errors.New("camera fit: a point projects to infinity")
+		}
+		ss += sq(u-uv[i][0]) + sq(v-uv[i][1])
+	}
+	cam.RMS = math.Sqrt(ss / float64(n))
+	// All points in front of the camera (same sign of w).
+	sign := 0.0
+	for _, p := range xyz {
+		w := cam.P[2][0]*p[0] + cam.P[2][1]*p[1] + cam.P[2][2]*p[2] + cam.P[2][3]
+		if sign == 0 {
+			sign = math.Copysign(1, w)
+		} else if w*sign <= 0 {
+			return nil, errors.New("camera fit: points on both sides of the camera")
+		}
+	}
+	return cam, nil
+}
+
+// levelPose fits one level's twist, plan displacement and settlement to the
+// observed displacements of its points through a fitted pinhole camera.
+// For point i at rest position xyz[i] (mm) with reference image position
+// ref[i] and observed position obs[i] (px), the model is
+// obs = ref + Project(moved) - Project(rest), which cancels fixed errors
+// of the camera fit. Motion toward the camera is weakly observable, so it
+// carries a soft prior (priorMM of motion costs one pixel). Returns twist
+// (rad), plan displacement (mm) and settlement (mm, down).
+func (c *Pinhole) levelPose(xyz [][3]float64, ref, obs [][2]float64, toward [2]float64, x0 [4]float64, priorMM float64, fitTwist bool) (x [4]float64, ok bool) {
+	n := len(xyz)
+	base := make([][2]float64, n)
+	for i := range xyz {
+		u, v, okp := c.Project(xyz[i][0], xyz[i][1], xyz[i][2])
+		if !okp {
+			return x, false
+		}
+		base[i] = [2]float64{u, v}
+	}
+	resid := func(p [4]float64, out []float64) bool {
+		ct, st := math.Cos(p[0]), math.Sin(p[0])
+		for i := range xyz {
+			X := ct*xyz[i][0] - st*xyz[i][1] + p[1]
+			Y := st*xyz[i][0] + ct*xyz[i][1] + p[2]
+			u, v, okp := c.Project(X, Y, xyz[i][2]-p[3])
+			if !okp {
+				return false
+			}
+			out[2*i] = ref[i][0] + u - base[i][0] - obs[i][0]
+			out[2*i+1] = ref[i][1] + v - base[i][1] - obs[i][1]
+		}
+		out[2*n] = (p[1]*toward[0] + p[2]*toward[1]) / priorMM
+		out[2*n+1] = 0
+		if !fitTwist {
+			out[2*n+1] = p[0] * 1e3
+		}
+		return true
+	}
+	m := 2*n + 2
+	r := make([]float64, m)
+	rp := make([]float64, m)
+	x = x0
+	lambda := 1e-3
+	if !resid(x, r) {
+		return x, false
+	}
+	cost := dot(r, r)
+	J := mat.NewDense(m, 4, nil)
+	steps := [4]float64{1e-6, 1e-4, 1e-4, 1e-4}
+	for it := 0; it < 30; it++ {
+		for k := 0; k < 4; k++ {
+			xp := x
+			xp[k] += steps[k]
+			if !resid(xp, rp) {
+				return x, false
+			}
+			for i := 0; i < m; i++ {
+				J.Set(i, k, (rp[i]-r[i])/steps[k])
+			}
+		}
+		var JtJ mat.Dense
+		JtJ.Mul(J.T(), J)
+		g := mat.NewVecDense(4, nil)
+		g.MulVec(J.T(), mat.NewVecDense(m, r))
+		improved := false
+		for try := 0; try < 10; try++ {
+			A := mat.DenseCopyOf(&JtJ)
+			for k := 0; k < 4; k++ {
+				A.Set(k, k, A.At(k, k)*(1+lambda)+1e-12)
+			}
+			var dx mat.VecDense
+			if err := dx.SolveVec(A, g); err != nil {
+				lambda *= 10
+				continue
+			}
+			xn := x
+			for k := 0; k < 4; k++ {
+				xn[k] -= dx.AtVec(k)
+			}
+			if resid(xn, rp) {
+				if cn := dot(rp, rp); cn <= cost {
+					small := math.Abs(dx.AtVec(0)) < 1e-10 && math.Abs(dx.AtVec(1)) < 1e-7 && math.Abs(dx.AtVec(2)) < 1e-7 && math.Abs(dx.AtVec(3)) < 1e-7
+					x, cost = xn, cn
+					copy(r, rp)
+					lambda = math.Max(lambda/10, 1e-9)
+					improved = true
+					if small {
+						return x, true
+					}
+					break
+				}
+			}
+			lambda *= 10
+		}
+		if !improved {
+			break
+		}
+	}
+	return x, true
+}
+
+func dot(a, b []float64) float64 {
+	s := 0.0
+	for i := range a {
+		s += a[i] * b[i]
+	}
+	return s
+}

@@ -1,0 +1,732 @@
+package measure
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+)
+
+// Failure-mode labels (see the package documentation for each rule).
+const (
+	ModeTowerTwist       = "tower_twist"
+	ModeLegFullHeight    = "leg_full_height"
+	ModeLegBetweenBraces = "leg_between_braces"
+	ModeBraceBuckling    = "brace_buckling"
+	ModeJointOrBase      = "joint_or_base"
+	ModeUndetermined     = "undetermined"
+)
+
+// Event kinds.
+const (
+	EventOnset      = "onset"
+	EventBreak      = "break"
+	EventTwistOnset = "twist_onset"
+	EventCollapse   = "collapse"
+	EventLost       = "lost"
+)
+
+// Detection settings, shared by all detectors (documented in the package doc).
+const (
+	// CusumK is the CUSUM reference value in baseline standard deviations
+	// (Montgomery's usual choice k = 0.5 sigma; from memory).
+	CusumK = 0.5
+	// CusumH is the CUSUM decision interval in baseline standard deviations
+	// (h = 4 or 5 sigma is the usual choice; from memory).
+	CusumH = 5.0
+	// CusumCPK is the reference value, in baseline standard deviations,
+	// of the sum whose maximum marks the change point once a shift is
+	// confirmed; larger than CusumK so a slightly low baseline does not pull
+	// the change point early (common practice).
+	CusumCPK = 1.0
+	// OnsetFloorFrac is the smallest bow taken as buckling, as a fraction of
+	// the member's length (0.5 %).
+	OnsetFloorFrac = 0.005
+	// SustainRows is how many consecutive tracked rows must stay above the
+	// floor to confirm an onset.
+	SustainRows = 5
+	// TwistFloorDeg is the smallest twist change taken as a twist onset, degrees.
+	TwistFloorDeg = 0.25
+	// TwistModeDeg is the twist before collapse that, with no member bowing
+	// first, labels the failure a tower twist, degrees.
+	TwistModeDeg = 2.0
+)
+
+// Diagnosis is the account of a failure.
+type Diagnosis struct {
+	// Events are ordered by row (time).
+	Events []Event
+	// FirstMember is the first member to go ("" when undetermined).
+	FirstMember string
+	// Mode is one of the failure-mode labels.
+	Mode string
+	// Account is a plain-language account of the failure.
+	Account string
+	// Advice is what to change in the next build, one sentence an item.
+	Advice []string
+	// CollapseRow is the row of the collapse, -1 when none was seen.
+	CollapseRow int
+	// TopTwistDeg is the top observable level's twist just before collapse
+	// (or at the end), degrees; NaN when no level's twist was observable.
+	TopTwistDeg float64
+}
+
+// Event is one step in the failure.
+type Event struct {
+	// Kind is onset, break, twist_onset, collapse or lost.
+	Kind string
+	// Member is the member's id ("" for whole-tower events; the point id for lost).
+	Member string
+	// Row is the Tracks row and Frame its frame number.
+	Row, Frame int
+	// TimeS is Frame over the capture rate, seconds (NaN without a rate).
+	TimeS float64
+	// Detail says what was seen.
+	Detail string
+}
+
+type memberFind struct {
+	m                *Member
+	onset, brk       int
+	onsetDet, brkDet string
+	leg              string
+}
+
+// Diagnose finds the failure's events, first member, mode, account and
+// advice from measured quantities. It also re-summarises each leg's shape
+// at its largest deflection before the collapse.
+func Diagnose(res *Result, in Input) *Diagnosis {
+	n := len(res.Frames)
+	d := &Diagnosis{CollapseRow: -1, TopTwistDeg: math.NaN(), Mode: ModeUndetermined}
+	if n == 0 {
+		d.Account = "No frames were measured, so nothing can be said about the failure."
+		d.Advice = adviceFor(d.Mode, nil, res)
+		return d
+	}
+	nb := baselineRows(n)
+	ev := func(kind, member string, row int, detail string) Event {
+		return Event{Kind: kind, Member: member, Row: row, Frame: res.Frames[row], TimeS: timeOf(res.Frames[row], in.CaptureFPS), Detail: detail}
+	}
+
+	// Collapse: motion energy jump, top-level displacement jump, most points lost.
+	colRow, colDet := collapse(res, in, nb)
+	d.CollapseRow = colRow
+	end := n
+	if colRow >= 0 {
+		end = colRow
+	}
+
+	// Members: onset and break.
+	var finds []*memberFind
+	for i := range res.Members {
+		m := &res.Members[i]
+		f := &memberFind{m: m, onset: -1, brk: -1}
+		if m.Kind == "leg" {
+			f.leg = legOf(m, in)
+		}
+		f.onset, f.onsetDet = bowOnset(m, nb, end)
+		f.brk, f.brkDet = memberBreak(m, in, nb, f.onset, n)
+		finds = append(finds, f)
+	}
+
+	// Twist onset on the top observable level.
+	top := -1
+	for i := range res.Levels {
+		if res.Levels[i].Observable {
+			top = i
+		}
+	}
+	twRow := -1
+	if top >= 0 {
+		lv := &res.Levels[top]
+		var det string
+		twRow, det = twistOnset(lv.TwistDeg, nb, end)
+		if twRow >= 0 {
+			d.Events = append(d.Events, ev(EventTwistOnset, "", twRow, fmt.Sprintf("level %d began to twist (%s)", lv.Level, det)))
+		}
+		last := end - 1
+		for last > 0 && math.IsNaN(lv.TwistDeg[last]) {
+			last--
+		}
+		if last >= 0 {
+			d.TopTwistDeg = lv.TwistDeg[last]
+		}
+	}
+
+	// Legs: summarise at the largest deflection before the collapse.
+	for i := range res.Legs {
+		l := &res.Legs[i]
+		best, bestRow := 0.0, -1
+		for r := 0; r < end && r < len(l.DeflectionMM); r++ {
+			row := l.DeflectionMM[r]
+			okRow := true
+			for _, v := range row {
+				if math.IsNaN(v) {
+					okRow = false
+				}
+			}
+			if okRow && maxAbs(row) > best {
+				best, bestRow = maxAbs(row), r
+			}
+		}
+		l.SummarizeAt(bestRow)
+	}
+
+	// First member: earliest onset; without any, the earliest break before the collapse.
+	var first *memberFind
+	for _, f := range finds {
+		if f.onset < 0 {
+			continue
+		}
+		if first == nil || f.onset < first.onset || (f.onset == first.onset && peakFrac(f.m, f.onset, end) > peakFrac(first.m, first.onset, end)) {
+			first = f
+		}
+	}
+	firstIsBreak := false
+	if first == nil {
+		for _, f := range finds {
+			if f.brk >= 0 && (colRow < 0 || f.brk < colRow) && (first == nil || f.brk < first.brk) {
+				first = f
+			}
+		}
+		firstIsBreak = first != nil
+	}
+
+	for _, f := range finds {
+		if f.onset >= 0 {
+			d.Events = append(d.Events, ev(EventOnset, f.m.ID, f.onset, describe(f.m)+" began to bow ("+f.onsetDet+")"))
+		}
+		// Breaks: members that bowed, and any break before the collapse.
+		if f.brk >= 0 && (f.onset >= 0 || colRow < 0 || f.brk < colRow) {
+			d.Events = append(d.Events, ev(EventBreak, f.m.ID, f.brk, describe(f.m)+" broke ("+f.brkDet+")"))
+		}
+	}
+	if colRow >= 0 {
+		d.Events = append(d.Events, ev(EventCollapse, "", colRow, colDet))
+	}
+	// Points lost before the collapse.
+	if in.Tracks != nil {
+		for j, id := range in.Tracks.IDs {
+			for r := 0; r < end && r < len(in.Tracks.Samples); r++ {
+				if in.Tracks.Samples[r][j].Lost {
+					d.Events = append(d.Events, ev(EventLost, id, r, fmt.Sprintf("point %s could no longer be tracked", id)))
+					break
+				}
+			}
+		}
+	}
+	sort.SliceStable(d.Events, func(i, j int) bool { return d.Events[i].Row < d.Events[j].Row })
+
+	// Mode.
+	var firstLeg *Leg
+	switch {
+	case twRow >= 0 && (first == nil || first.onset < 0 || twRow+SustainRows < first.onset):
+		d.Mode = ModeTowerTwist
+	case (first == nil || firstIsBreak) && colRow >= 0 && !math.IsNaN(d.TopTwistDeg) && math.Abs(d.TopTwistDeg) >= TwistModeDeg:
+		d.Mode = ModeTowerTwist
+	case first != nil && !firstIsBreak && first.m.Kind == "leg":
+		for i := range res.Legs {
+			if res.Legs[i].Leg == first.leg {
+				firstLeg = &res.Legs[i]
+			}
+		}
+		d.Mode = ModeLegFullHeight
+		if firstLeg != nil && firstLeg.Shape == ShapeBetweenBraces {
+			d.Mode = ModeLegBetweenBraces
+		}
+	case first != nil && !firstIsBreak && first.m.Kind == "brace":
+		d.Mode = ModeBraceBuckling
+	case firstIsBreak || colRow >= 0:
+		d.Mode = ModeJointOrBase
+	}
+	if first != nil {
+		d.FirstMember = first.m.ID
+	}
+	d.Account = account(d, first, firstIsBreak, twRow, colRow, res, in)
+	var fm *Member
+	if first != nil {
+		fm = first.m
+	}
+	d.Advice = adviceFor(d.Mode, fm, res)
+	if firstLeg != nil && !math.IsNaN(firstLeg.K) {
+		d.Advice = append(d.Advice, firstLeg.Note+".")
+	}
+	return d
+}
+
+// baselineRows is the early window used for baselines: a fifth of the rows,
+// at least 10 and at most 200.
+func baselineRows(n int) int {
+	nb := n / 5
+	if nb < 10 {
+		nb = 10
+	}
+	if nb > 200 {
+		nb = 200
+	}
+	if nb > n {
+		nb = n
+	}
+	return nb
+}
+
+func timeOf(frame int, fps float64) float64 {
+	if fps > 0 {
+		return float64(frame) / fps
+	}
+	return math.NaN()
+}
+
+// bowOnset finds the change point of a member's bow before row end.
+func bowOnset(m *Member, nb, end int) (int, string) {
+	if m.LengthMM <= 0 {
+		return -1, ""
+	}
+	mu, sigma, cnt := meanStd(m.BowMM[:min(nb, len(m.BowMM))])
+	if cnt < 3 {
+		return -1, ""
+	}
+	sigma = math.Max(math.Max(sigma, diffSigma(m.BowMM[:end])), 0.005) // mm: at least below any tracker's noise
+	floor := OnsetFloorFrac * m.LengthMM
+	c := CUSUM{Target: mu, K: CusumK * sigma, H: CusumH * sigma}
+	x := m.BowMM[:end]
+	from := 0
+	for {
+		f := sustainedAbove(x, mu+floor, from)
+		if f < 0 {
+			return -1, ""
+		}
+		// A bow that went from under a quarter of the floor to over it in
+		// one frame jumped: that is a break (or a slipped joint), not buckling.
+		if p := prevValid(x, f); p >= 0 && x[p]-mu < 0.25*floor {
+			from = f + 1
+			continue
+		}
+		alarm, _ := c.ChangePoint(x, f)
+		if alarm < 0 {
+			from = f + 1
+			continue
+		}
+		_, start := CUSUM{Target: mu, K: CusumCPK * sigma}.ChangePoint(x, f)
+		return start, fmt.Sprintf("bow rose from a baseline of %.2f mm; CUSUM k = %.3f mm, h = %.3f mm alarmed at frame row %d; above %.2f mm (0.5%% of %.0f mm) for %d frames from row %d", mu, c.K, c.H, alarm, floor, m.LengthMM, SustainRows, f)
+	}
+}
+
+// sustainedAbove returns the first row from which SustainRows consecutive
+// tracked values are at or above level, or -1.
+func sustainedAbove(x []float64, level float64, from int) int {
+	run, first := 0, -1
+	for i := max(from, 0); i < len(x); i++ {
+		if math.IsNaN(x[i]) {
+			continue
+		}
+		if x[i] >= level {
+			if run == 0 {
+				first = i
+			}
+			run++
+			if run >= SustainRows {
+				return first
+			}
+		} else {
+			run = 0
+		}
+	}
+	return -1
+}
+
+func prevValid(x []float64, i int) int {
+	for j := i - 1; j >= 0; j-- {
+		if !math.IsNaN(x[j]) {
+			return j
+		}
+	}
+	return -1
+}
+
+// memberBreak finds a sudden change after onset (or after the baseline).
+func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
+	from := nb
+	if onset >= 0 {
+		from = onset + 1
+	}
+	// Jumps in strain compared with the baseline's frame-to-frame noise.
+	var ds []float64
+	for r := 1; r < min(nb, n); r++ {
+		ds = append(ds, m.StrainPct[r]-m.StrainPct[r-1])
+	}
+	_, sd, _ := robustBaseline(ds)
+	if math.IsNaN(sd) {
+		sd = 0
+	}
+	strainJump := math.Max(8*sd, 0.5) // percent
+	var db []float64
+	for r := 1; r < min(nb, n); r++ {
+		db = append(db, m.BowMM[r]-m.BowMM[r-1])
+	}
+	_, bsd, _ := robustBaseline(db)
+	bowJump := 8 * bsd
+	if math.IsNaN(bowJump) {
+		bowJump = 0
+	}
+	var cols []int
+	if in.Tracks != nil {
+		for _, id := range m.Points {
+			cols = append(cols, in.Tracks.Index(id))
+		}
+	}
+	peak := 0.0
+	floor := OnsetFloorFrac * m.LengthMM
+	for r := max(from, 1); r < n; r++ {
+		for k, c := range cols {
+			if c >= 0 && in.Tracks.Samples[r][c].Lost && !in.Tracks.Samples[r-1][c].Lost {
+				return r, fmt.Sprintf("lost track of point %s", m.Points[k])
+			}
+		}
+		if a, b := m.StrainPct[r], m.StrainPct[r-1]; !math.IsNaN(a) && !math.IsNaN(b) && math.Abs(a-b) > strainJump {
+			return r, fmt.Sprintf("chord length jumped by %.1f%% in one frame", a-b)
+		}
+		if in.Tracks != nil && len(cols) >= 2 {
+			for _, k := range []int{0, len(cols) - 1} {
+				c := cols[k]
+				if c < 0 {
+					continue
+				}
+				s0, s1 := in.Tracks.Samples[r-1][c], in.Tracks.Samples[r][c]
+				if !s0.Lost && !s1.Lost && math.Hypot(s1.X-s0.X, s1.Y-s0.Y)*res0(in) > math.Max(0.02*m.LengthMM, 2) {
+					return r, fmt.Sprintf("end point %s jumped %.1f mm in one frame", m.Points[k], math.Hypot(s1.X-s0.X, s1.Y-s0.Y)*res0(in))
+				}
+			}
+		}
+		if b, b0 := m.BowMM[r], m.BowMM[r-1]; !math.IsNaN(b) && !math.IsNaN(b0) && b-b0 > math.Max(bowJump, 2*floor) {
+			return r, fmt.Sprintf("bow jumped from %.1f mm to %.1f mm in one frame", b0, b)
+		}
+		if onset >= 0 {
+			b := m.BowMM[r]
+			if !math.IsNaN(b) {
+				if peak >= 2*floor && b < 0.5*peak {
+					return r, fmt.Sprintf("bow fell from %.1f mm to %.1f mm", peak, b)
+				}
+				peak = math.Max(peak, b)
+			}
+		}
+	}
+	return -1, ""
+}
+
+// diffSigma estimates the noise of a series from its frame-to-frame
+// differences, robustly (1.4826 MAD / sqrt 2), so slow trends and a few
+// jumps do not count as noise.
+func diffSigma(x []float64) float64 {
+	var d []float64
+	for i := 1; i < len(x); i++ {
+		if !math.IsNaN(x[i]) && !math.IsNaN(x[i-1]) {
+			d = append(d, x[i]-x[i-1])
+		}
+	}
+	_, s, n := robustBaseline(d)
+	if n < 3 {
+		return 0
+	}
+	return s / math.Sqrt2
+}
+
+// meanStd returns the mean and standard deviation of the finite values in x.
+func meanStd(x []float64) (mu, sigma float64, n int) {
+	var sum, ss float64
+	for _, v := range x {
+		if !math.IsNaN(v) && !math.IsInf(v, 0) {
+			sum += v
+			n++
+		}
+	}
+	if n == 0 {
+		return math.NaN(), math.NaN(), 0
+	}
+	mu = sum / float64(n)
+	for _, v := range x {
+		if !math.IsNaN(v) && !math.IsInf(v, 0) {
+			ss += (v - mu) * (v - mu)
+		}
+	}
+	if n > 1 {
+		sigma = math.Sqrt(ss / float64(n-1))
+	}
+	return mu, sigma, n
+}
+
+// res0 returns the marks' scale in mm per pixel (1 when unknown).
+func res0(in Input) float64 {
+	if in.Marks != nil {
+		if s, ok := in.Marks.MMPerPixel(); ok {
+			return s
+		}
+	}
+	return 1
+}
+
+// twistOnset finds the change point of a two-sided CUSUM on twist.
+func twistOnset(tw []float64, nb, end int) (int, string) {
+	mu, sigma, cnt := meanStd(tw[:min(nb, len(tw))])
+	if cnt < 3 {
+		return -1, ""
+	}
+	sigma = math.Max(math.Max(sigma, diffSigma(tw[:end])), 0.01)
+	best := -1
+	var det string
+	for _, sign := range []float64{1, -1} {
+		x := make([]float64, end)
+		for i := 0; i < end; i++ {
+			x[i] = sign * (tw[i] - mu)
+		}
+		c := CUSUM{Target: 0, K: CusumK * sigma, H: CusumH * sigma}
+		f := sustainedAbove(x, TwistFloorDeg, 0)
+		if f < 0 {
+			continue
+		}
+		alarm, _ := c.ChangePoint(x, f)
+		if alarm < 0 {
+			continue
+		}
+		_, start := CUSUM{Target: 0, K: CusumCPK * sigma}.ChangePoint(x, f)
+		if best >= 0 && start >= best {
+			continue
+		}
+		best = start
+		dir := "counter-clockwise"
+		if sign < 0 {
+			dir = "clockwise"
+		}
+		det = fmt.Sprintf("%s from above; CUSUM on twist, baseline %.2f deg, sigma %.3f deg, alarm at row %d; beyond %.2f deg for %d frames from row %d", dir, mu, sigma, alarm, TwistFloorDeg, SustainRows, f)
+	}
+	return best, det
+}
+
+// collapse finds the collapse row from motion energy, the top level's
+// displacement, and lost points.
+func collapse(res *Result, in Input, nb int) (int, string) {
+	n := len(res.Frames)
+	best, det := -1, ""
+	take := func(r int, s string) {
+		if r >= 0 && (best < 0 || r < best) {
+			best, det = r, s
+		}
+	}
+	if len(in.Energy) == n {
+		med, sd, cnt := robustBaseline(in.Energy[:nb])
+		if cnt >= 3 {
+			thr := med + math.Max(10*sd, math.Max(med, 1e-3))
+			for r := nb; r < n; r++ {
+				if in.Energy[r] > thr && (r+1 >= n || in.Energy[r+1] > thr) {
+					take(r, fmt.Sprintf("the whole-frame motion energy jumped to %.3g (baseline %.3g)", in.Energy[r], med))
+					break
+				}
+			}
+		}
+	}
+	// Top level with a sway series.
+	for li := len(res.Levels) - 1; li >= 0; li-- {
+		lv := &res.Levels[li]
+		var v []float64
+		for r := 1; r < n; r++ {
+			v = append(v, math.Hypot(lv.SwayMM[r]-lv.SwayMM[r-1], lv.SettleMM[r]-lv.SettleMM[r-1]))
+		}
+		med, sd, cnt := robustBaseline(v[:min(nb, len(v))])
+		if cnt < 3 {
+			continue
+		}
+		thr := med + math.Max(10*sd, 1.0) // at least 1 mm per frame
+		for r := nb; r < len(v); r++ {
+			if v[r] > thr && (r+1 >= len(v) || v[r+1] > thr || math.IsNaN(v[r+1])) {
+				take(r+1, fmt.Sprintf("level %d moved %.1f mm in one frame", lv.Level, v[r]))
+				break
+			}
+		}
+		break
+	}
+	if in.Tracks != nil && len(in.Tracks.IDs) > 0 {
+		for r := 0; r < n && r < len(in.Tracks.Samples); r++ {
+			lost := 0
+			for _, s := range in.Tracks.Samples[r] {
+				if s.Lost {
+					lost++
+				}
+			}
+			if 2*lost > len(in.Tracks.IDs) {
+				take(r, fmt.Sprintf("%d of %d points could no longer be tracked", lost, len(in.Tracks.IDs)))
+				break
+			}
+		}
+	}
+	if best >= 0 {
+		det = "the tower collapsed: " + det
+	}
+	return best, det
+}
+
+func peakFrac(m *Member, from, end int) float64 {
+	p := 0.0
+	for r := from; r < end && r < len(m.BowFrac); r++ {
+		if !math.IsNaN(m.BowFrac[r]) {
+			p = math.Max(p, m.BowFrac[r])
+		}
+	}
+	return p
+}
+
+func legOf(m *Member, in Input) string {
+	if in.Marks == nil {
+		return ""
+	}
+	for _, id := range m.Points {
+		if p, ok := in.Marks.Point(id); ok && p.Leg != "" {
+			return p.Leg
+		}
+	}
+	return ""
+}
+
+// describe names a member in words: "diagonal AB-d1 between levels 0 and 1".
+func describe(m *Member) string {
+	lv := ""
+	switch {
+	case m.Levels[0] >= 0 && m.Levels[1] > m.Levels[0]:
+		lv = fmt.Sprintf(" between levels %d and %d", m.Levels[0], m.Levels[1])
+	case m.Levels[0] >= 0:
+		lv = fmt.Sprintf(" at level %d", m.Levels[0])
+	}
+	switch m.Kind {
+	case "leg":
+		if m.Leg != "" && m.ID != m.Leg {
+			return "leg " + m.Leg + " (" + m.ID + ")" + lv
+		}
+		return "leg " + m.ID + lv
+	case "block":
+		return "loading block " + m.ID
+	case "brace":
+		if m.Levels[0] >= 0 && m.Levels[1] > m.Levels[0] {
+			return "diagonal " + m.ID + lv
+		}
+		if m.Levels[0] >= 0 {
+			return "horizontal brace " + m.ID + lv
+		}
+		return "brace " + m.ID
+	}
+	return m.ID
+}
+
+func fmtTime(row int, res *Result, fps float64) string {
+	if fps > 0 {
+		return fmt.Sprintf("%.3f s (frame %d)", float64(res.Frames[row])/fps, res.Frames[row])
+	}
+	return fmt.Sprintf("frame %d", res.Frames[row])
+}
+
+func fmtGap(a, b int, res *Result, fps float64) string {
+	df := res.Frames[b] - res.Frames[a]
+	if fps > 0 {
+		ms := 1000 * float64(df) / fps
+		if ms < 1000 {
+			return fmt.Sprintf("%.0f ms", ms)
+		}
+		return fmt.Sprintf("%.2f s", ms/1000)
+	}
+	return fmt.Sprintf("%d frames", df)
+}
+
+func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow int, res *Result, in Input) string {
+	fps := in.CaptureFPS
+	var parts []string
+	last := -1
+	switch {
+	case first != nil && !firstIsBreak:
+		s := fmt.Sprintf("%s began to bow at %s", describe(first.m), fmtTime(first.onset, res, fps))
+		last = first.onset
+		if first.brk >= 0 {
+			s += fmt.Sprintf(", broke at %s", fmtTime(first.brk, res, fps))
+			last = first.brk
+		}
+		parts = append(parts, s)
+	case first != nil:
+		parts = append(parts, fmt.Sprintf("%s broke without bowing first at %s (%s)", describe(first.m), fmtTime(first.brk, res, fps), first.brkDet))
+		last = first.brk
+	}
+	if twRow >= 0 {
+		s := fmt.Sprintf("the tower began to twist at %s", fmtTime(twRow, res, fps))
+		if len(parts) == 0 {
+			last = twRow
+		}
+		parts = append(parts, s)
+	}
+	if colRow >= 0 {
+		if last >= 0 && colRow == last {
+			parts = append(parts, "the tower collapsed in the same frame")
+		} else if last >= 0 && colRow > last {
+			parts = append(parts, fmt.Sprintf("collapse followed %s later", fmtGap(last, colRow, res, fps)))
+		} else {
+			parts = append(parts, fmt.Sprintf("the tower collapsed at %s", fmtTime(colRow, res, fps)))
+		}
+	}
+	if len(parts) == 0 {
+		return "No member bowed, broke or lost its track and no collapse was seen in the measured frames; the failure could not be determined from this clip."
+	}
+	if !math.IsNaN(d.TopTwistDeg) {
+		when := "by the end of the clip"
+		if colRow >= 0 {
+			when = "just before collapse"
+		}
+		tw := d.TopTwistDeg
+		if math.Abs(tw) < 0.05 {
+			tw = 0
+		}
+		parts = append(parts, fmt.Sprintf("the top observable level had twisted %.1f degrees %s", tw, when))
+	}
+	s := strings.Join(parts, "; ")
+	s = strings.ToUpper(s[:1]) + s[1:] + "."
+	return s + " Failure mode: " + strings.ReplaceAll(d.Mode, "_", " ") + "."
+}
+
+func hasDiagonals(res *Result) bool {
+	for _, m := range res.Members {
+		if m.Kind == "brace" && m.Levels[0] >= 0 && m.Levels[1] > m.Levels[0] {
+			return true
+		}
+	}
+	return false
+}
+
+// adviceFor gives next-build advice tied to the physics of the mode.
+func adviceFor(mode string, first *Member, res *Result) []string {
+	var a []string
+	switch mode {
+	case ModeTowerTwist:
+		a = append(a, "The tower twisted as a whole: horizontal braces alone do not stop a square frame racking, so add a diagonal (or an X pair) in every face of every panel; diagonals turn twist into axial force in the braces.")
+		a = append(a, "Once twist is stopped, each leg only has to span one panel: its effective length drops from the full height to the panel height, and the Euler load P = pi^2 E I / (K L)^2 rises with the square of that ratio (halving the length gives 4 times the load).")
+	case ModeLegFullHeight:
+		if !hasDiagonals(res) {
+			a = append(a, "A leg buckled over its full height: the horizontal braces let the tower twist, so they did not hold the legs sideways. Add diagonals in each face to stop the twist; the legs' effective length then becomes the panel height (4 times the Euler load at half the length).")
+		} else {
+			a = append(a, "A leg buckled over its full height although the faces are braced: check that the braces are glued to the legs at each level and that they are stiff enough to hold the leg (a brace needs only a few percent of the leg's load, but it must not slip).")
+		}
+	case ModeLegBetweenBraces:
+		a = append(a, "A leg buckled between braced levels, so the bracing did its job: to go further, shorten the panels (more levels: halving the panel height gives 4 times the Euler load) or use a stiffer leg section (the second moment of area of a square leg grows with the fourth power of its side).")
+	case ModeBraceBuckling:
+		if first != nil && first.Levels[1] > first.Levels[0] && first.Levels[0] >= 0 {
+			a = append(a, fmt.Sprintf("The diagonal %s (%.0f mm long) buckled first: glue an X crossing at its mid-length so it buckles over half the length (4 times the Euler load), or use a deeper section for it.", first.ID, first.LengthMM))
+		} else if first != nil {
+			a = append(a, fmt.Sprintf("The brace %s (%.0f mm long) buckled first: brace it at mid-length or use a stiffer section; halving its unbraced length gives 4 times the Euler load.", first.ID, first.LengthMM))
+		}
+		a = append(a, "The legs held longer than the bracing: the tower is limited by its longest compression braces, so material may come off the legs and go into the braces.")
+	case ModeJointOrBase:
+		a = append(a, "A member let go without bowing first: a glue joint or the base failed before any member buckled. Give the joints more glue area (gussets or notched joints), let glue cure fully, and check the tower sits flat and the load is centred.")
+	default:
+		a = append(a, "The clip did not show how the tower failed: mark points on two faces (legs at every level and the middle of long braces), film from a camera azimuth of 15-35 degrees off a face, and keep the whole tower in frame.")
+	}
+	for _, lv := range res.Levels {
+		if !lv.Observable {
+			a = append(a, fmt.Sprintf("Twist at level %d could not be measured from this camera position; next time film from 15-35 degrees off a face and mark points on two faces.", lv.Level))
+			break
+		}
+	}
+	return a
+}

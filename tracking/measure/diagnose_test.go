@@ -1,0 +1,192 @@
+package measure
+
+import (
+	"math"
+	"strings"
+	"testing"
+)
+
+// energyFor is a motion-energy trace: low noise, a jump at collapse.
+func energyFor(n, collapse int) []float64 {
+	e := make([]float64, n)
+	for i := range e {
+		e[i] = 0.3 + 0.05*math.Sin(float64(i)*1.7)
+		if collapse >= 0 && i >= collapse {
+			e[i] = 12
+		}
+	}
+	e[0] = 0
+	return e
+}
+
+func findEvent(d *Diagnosis, kind, member string) *Event {
+	for i := range d.Events {
+		if d.Events[i].Kind == kind && (member == "" || d.Events[i].Member == member) {
+			return &d.Events[i]
+		}
+	}
+	return nil
+}
+
+func TestDiagnoseScenarios(t *testing.T) {
+	const n = 300
+	tests := []struct {
+		name     string
+		setup    func(s *scene)
+		collapse int
+		first    string
+		onset    int // -1: no onset expected
+		mode     string
+		account  []string
+	}{
+		{
+			name: "diagonal buckles then breaks",
+			setup: func(s *scene) {
+				s.bow = func(id string, f int) float64 {
+					if id == "AB-d2" && f >= 150 {
+						return 0.04 * float64(f-150) // mm per frame
+					}
+					return 0
+				}
+				s.lost = func(id string, f int) bool {
+					return (id == "AB-d2-mid" && f >= 200) || f >= 206
+				}
+			},
+			collapse: 206, first: "AB-d2", onset: 150, mode: ModeBraceBuckling,
+			account: []string{"diagonal AB-d2 between levels 1 and 2 began to bow at 0.15", "broke at 0.200 s", "collapse followed 6 ms later"},
+		},
+		{
+			name: "leg buckles over its full height",
+			setup: func(s *scene) {
+				s.midLeg = true
+				s.legBow = func(leg string, f int, h float64) float64 {
+					if leg == "A" && f >= 120 {
+						return 0.05 * float64(f-120) * math.Sin(math.Pi*h/280)
+					}
+					return 0
+				}
+				s.lost = func(id string, f int) bool { return f >= 230 }
+			},
+			collapse: 230, first: "leg-A", onset: 120, mode: ModeLegFullHeight,
+			account: []string{"leg A (leg-A) between levels 0 and 4 began to bow at 0.12", "collapsed in the same frame"},
+		},
+		{
+			name: "tower twists, no member bows",
+			setup: func(s *scene) {
+				s.twist = func(l, f int) float64 {
+					if f < 100 {
+						return 0
+					}
+					return 0.03 * float64(f-100) * float64(l) / 4
+				}
+				s.lost = func(id string, f int) bool { return f >= 250 }
+			},
+			collapse: 250, first: "", onset: -1, mode: ModeTowerTwist,
+			account: []string{"the tower began to twist at 0.1", "twisted 4.4 degrees just before collapse"},
+		},
+		{
+			name: "joint lets go without bowing",
+			setup: func(s *scene) {
+				s.lost = func(id string, f int) bool { return (id == "BC-d3-mid" && f >= 180) || f >= 260 }
+				s.bow = func(id string, f int) float64 {
+					if id == "BC-d3" && f >= 175 {
+						return 8 // a jump, not a growing bow
+					}
+					return 0
+				}
+			},
+			collapse: 260, first: "BC-d3", onset: -1, mode: ModeJointOrBase,
+			account: []string{"broke without bowing first at 0.175 s"},
+		},
+		{
+			name:     "nothing happens",
+			setup:    func(s *scene) {},
+			collapse: -1, first: "", onset: -1, mode: ModeUndetermined,
+			account: []string{"could not be determined"},
+		},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			s := newScene(25)
+			s.frames = n
+			s.noise = 0.05
+			tc.setup(s)
+			m, tr := s.build()
+			in := Input{Marks: m, Tracks: tr, CaptureFPS: 1000, Energy: energyFor(n, tc.collapse)}
+			res, err := Measure(in)
+			if err != nil {
+				t.Fatal(err)
+			}
+			d := Diagnose(res, in)
+			for _, e := range d.Events {
+				t.Logf("event %s %s row %d: %s", e.Kind, e.Member, e.Row, e.Detail)
+			}
+			t.Logf("account: %s", d.Account)
+			if d.FirstMember != tc.first {
+				t.Errorf("first member %q, want %q", d.FirstMember, tc.first)
+			}
+			if d.Mode != tc.mode {
+				t.Errorf("mode %s, want %s", d.Mode, tc.mode)
+			}
+			if tc.onset >= 0 {
+				e := findEvent(d, EventOnset, tc.first)
+				if e == nil {
+					t.Fatalf("no onset for %s", tc.first)
+				}
+				if e.Frame < tc.onset-5 || e.Frame > tc.onset+5 {
+					t.Errorf("onset frame %d, want %d +- 5", e.Frame, tc.onset)
+				}
+				if math.Abs(e.TimeS-float64(e.Frame)/1000) > 1e-12 {
+					t.Errorf("time %g for frame %d at 1000 fps", e.TimeS, e.Frame)
+				}
+			} else if e := findEvent(d, EventOnset, ""); e != nil {
+				t.Errorf("unexpected onset %+v", *e)
+			}
+			if tc.collapse >= 0 {
+				e := findEvent(d, EventCollapse, "")
+				if e == nil || e.Frame != tc.collapse {
+					t.Errorf("collapse %+v, want frame %d", e, tc.collapse)
+				}
+			} else if d.CollapseRow != -1 {
+				t.Errorf("collapse at row %d in a quiet clip", d.CollapseRow)
+			}
+			for i := 1; i < len(d.Events); i++ {
+				if d.Events[i].Row < d.Events[i-1].Row {
+					t.Errorf("events out of order at %d", i)
+				}
+			}
+			for _, want := range tc.account {
+				if !strings.Contains(strings.ToLower(d.Account), strings.ToLower(want)) {
+					t.Errorf("account %q lacks %q", d.Account, want)
+				}
+			}
+			if len(d.Advice) == 0 {
+				t.Error("no advice")
+			}
+		})
+	}
+}
+
+// The advice names the physics of each mode.
+func TestAdviceByMode(t *testing.T) {
+	diag := &Result{Members: []Member{{ID: "AB-d2", Kind: "brace", Levels: [2]int{1, 2}, LengthMM: 99}}}
+	horiz := &Result{Members: []Member{{ID: "AB-h2", Kind: "brace", Levels: [2]int{2, 2}, LengthMM: 75}}}
+	for _, tc := range []struct {
+		mode string
+		res  *Result
+		want string
+	}{
+		{ModeTowerTwist, horiz, "diagonal"},
+		{ModeLegFullHeight, horiz, "panel height"},
+		{ModeLegFullHeight, diag, "glued"},
+		{ModeLegBetweenBraces, diag, "4 times the Euler load"},
+		{ModeBraceBuckling, diag, "X crossing"},
+		{ModeJointOrBase, diag, "glue"},
+		{ModeUndetermined, diag, "15-35 degrees"},
+	} {
+		a := strings.Join(adviceFor(tc.mode, &tc.res.Members[0], tc.res), " ")
+		if !strings.Contains(a, tc.want) {
+			t.Errorf("%s advice lacks %q: %s", tc.mode, tc.want, a)
+		}
+	}
+}

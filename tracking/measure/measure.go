@@ -1,0 +1,496 @@
+package measure
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"github.com/failframe/failframe/tracking/marks"
+	"github.com/failframe/failframe/tracking/tracks"
+)
+
+// MinDepthFrac is the smallest spread of a level's points along the view
+// direction, as a fraction of the level's width, for which twist is
+// reported. Below it a twist of one degree moves the points by less than
+// 0.15 w x 0.017, which tracking noise swamps.
+const MinDepthFrac = 0.15
+
+// Input is what Measure needs: the marks, the tracks and the capture rate.
+type Input struct {
+	// Marks is the marks file the tracks were started from.
+	Marks *marks.File
+	// Tracks are the tracked points; columns are matched to marks by id.
+	Tracks *tracks.Tracks
+	// CaptureFPS is the true capture rate, frames per second; 0 leaves times unknown.
+	CaptureFPS float64
+	// Energy is the motion energy, one value per Tracks row; optional.
+	Energy []float64
+	// Undistort maps a distorted image position to an undistorted one, in
+	// pixels; nil means the identity (no lens correction).
+	Undistort func(x, y float64) (float64, float64)
+}
+
+// Result holds the measured quantities, one value per Tracks row.
+type Result struct {
+	// MMPerPx is the scale at the tower in millimetres per pixel.
+	MMPerPx float64
+	// Levels are the braced levels that have marked points, lowest first.
+	Levels []Level
+	// Legs are the legs with at least three marked points, A to D.
+	Legs []Leg
+	// Members are the marks file's members, in its order.
+	Members []Member
+	// Notes are things the reader should know (scale source, geometry disagreements).
+	Notes []string
+
+	// Frames are the frame numbers of the rows (a copy of Tracks.Frames).
+	Frames []int
+}
+
+// Level is one braced level's rigid in-plane motion.
+type Level struct {
+	// Level is the level number, 0 = base.
+	Level int
+	// Points are the ids of the level's marked points used in the fit.
+	Points []string
+	// WidthMM is the level's width in plan (largest extent of its points), mm.
+	WidthMM float64
+	// DepthSpreadMM is the spread of the points along the view direction, mm.
+	DepthSpreadMM float64
+	// Observable is false when twist cannot be seen from this camera.
+	Observable bool
+	// Note explains a missing number ("" when all is well).
+	Note string
+	// TwistDeg is the twist, degrees, counter-clockwise from above positive; NaN where unknown.
+	TwistDeg []float64
+	// SwayMM is the level centre's displacement along the camera's right vector, mm; NaN where unknown.
+	SwayMM []float64
+	// SettleMM is the vertical displacement, mm, positive down; NaN where unknown.
+	SettleMM []float64
+}
+
+// Member is one member's chord and bow history.
+type Member struct {
+	// ID and Kind are copied from the marks file.
+	ID, Kind string
+	// Points are the member's point ids: end, interior points..., end.
+	Points []string
+	// Leg is the leg letter of the member's points, for legs ("" otherwise).
+	Leg string
+	// Levels are the lowest and highest levels among the member's points (-1 when unknown).
+	Levels [2]int
+	// LengthMM is the member's length: from the plan and level heights when
+	// both ends have them, otherwise the chord in the reference frame times the scale.
+	LengthMM float64
+	// StrainPct is the chord length change relative to the reference frame, percent (+ = longer).
+	StrainPct []float64
+	// BowMM is the largest perpendicular offset of an interior point from the
+	// chord, change since the reference frame, mm (>= 0; NaN without interior points).
+	BowMM []float64
+	// BowFrac is BowMM over LengthMM.
+	BowFrac []float64
+	// RotationDeg is the chord's rotation in the image since the reference
+	// frame, degrees, counter-clockwise as seen in the image positive.
+	RotationDeg []float64
+}
+
+// Leg is one leg's deflected shape.
+type Leg struct {
+	// Leg is the leg letter, A to D.
+	Leg string
+	// Points are the leg's point ids, bottom to top.
+	Points []string
+	// HeightsMM are the points' heights above the leg's lowest point, mm.
+	HeightsMM []float64
+	// LengthMM is the leg's length between its end points, mm.
+	LengthMM float64
+	// DeflectionMM is each point's offset from the straight line through the
+	// leg's end points (change since the reference frame), mm, image-right
+	// positive; one row per Tracks row, one column per point, NaN where lost.
+	DeflectionMM [][]float64
+	// HalfWaveMM is the buckled half-wavelength estimated per row, mm; NaN
+	// while the leg is straight within noise or not tracked.
+	HalfWaveMM []float64
+	// Row is the row the summary below describes (the largest deflection
+	// before the leg's points were lost), -1 when the leg never deflected.
+	Row int
+	// HalfWaves is the number of half-waves over the leg's length at Row (0 = none seen).
+	HalfWaves int
+	// K is the effective length factor implied by the shape at Row, relative
+	// to the leg's full length: half-wavelength / LengthMM (NaN when unknown).
+	K float64
+	// Shape is "full_height", "between_braces" or "straight".
+	Shape string
+	// Note states the shape's meaning and the Euler relation it rests on.
+	Note string
+}
+
+// point is a marked point with its derived geometry.
+type point struct {
+	id       string
+	col      int // Tracks column, -1 when not tracked
+	ref      [2]float64
+	plan     [2]float64
+	hasPlan  bool
+	level    int // -1 when none
+	height   float64
+	hasH     bool
+	leg      string
+	markLine int
+}
+
+// rows gives undistorted positions of a point per row.
+type geom struct {
+	in     Input
+	s      float64
+	pts    map[string]*point
+	order  []string
+	n      int
+	undist func(x, y float64) (float64, float64)
+}
+
+func (g *geom) at(p *point, row int) (x, y float64, ok bool) {
+	if p.col < 0 {
+		return math.NaN(), math.NaN(), false
+	}
+	smp := g.in.Tracks.Samples[row][p.col]
+	if smp.Lost || math.IsNaN(smp.X) || math.IsNaN(smp.Y) || math.IsInf(smp.X, 0) || math.IsInf(smp.Y, 0) {
+		return math.NaN(), math.NaN(), false
+	}
+	x, y = g.undist(smp.X, smp.Y)
+	return x, y, true
+}
+
+// Measure computes per-row twist, sway, settlement, leg deflection and
+// member strain, rotation and bow from tracked points.
+func Measure(in Input) (*Result, error) {
+	if in.Marks == nil {
+		return nil, errors.New("measure: no marks")
+	}
+	if in.Tracks == nil {
+		return nil, errors.New("measure: no tracks")
+	}
+	t := in.Tracks
+	if len(t.Samples) != len(t.Frames) {
+		return nil, fmt.Errorf("measure: tracks have %d frames but %d sample rows", len(t.Frames), len(t.Samples))
+	}
+	for i, row := range t.Samples {
+		if len(row) != len(t.IDs) {
+			return nil, fmt.Errorf("measure: tracks row %d (frame %d) has %d samples for %d points", i, t.Frames[i], len(row), len(t.IDs))
+		}
+	}
+	if in.Energy != nil && len(in.Energy) != len(t.Frames) {
+		return nil, fmt.Errorf("measure: %d motion energy values for %d frames", len(in.Energy), len(t.Frames))
+	}
+	if in.CaptureFPS < 0 || math.IsNaN(in.CaptureFPS) || math.IsInf(in.CaptureFPS, 0) {
+		return nil, fmt.Errorf("measure: capture rate %g fps is not usable", in.CaptureFPS)
+	}
+	for _, id := range t.IDs {
+		if _, ok := in.Marks.Point(id); !ok {
+			return nil, fmt.Errorf("measure: tracked point %q is not in the marks file", id)
+		}
+	}
+	g := &geom{in: in, pts: map[string]*point{}, n: len(t.Frames), undist: in.Undistort}
+	if g.undist == nil {
+		g.undist = func(x, y float64) (float64, float64) { return x, y }
+	}
+	res := &Result{Frames: append([]int(nil), t.Frames...)}
+	m := in.Marks
+	for _, mp := range m.Points {
+		p := &point{id: mp.ID, col: t.Index(mp.ID), level: -1, leg: mp.Leg, markLine: mp.Line}
+		p.ref[0], p.ref[1] = g.undist(mp.PX[0], mp.PX[1])
+		p.plan, p.hasPlan = m.PlanOf(mp)
+		if mp.Level != nil {
+			p.level = *mp.Level
+			if m.Tower != nil && p.level >= 0 && p.level < len(m.Tower.LevelsMM) {
+				p.height, p.hasH = m.Tower.LevelsMM[p.level], true
+			}
+		}
+		g.pts[mp.ID] = p
+		g.order = append(g.order, mp.ID)
+	}
+	s, note, err := g.scale()
+	if err != nil {
+		return nil, err
+	}
+	g.s = s
+	res.MMPerPx = s
+	if note != "" {
+		res.Notes = append(res.Notes, note)
+	}
+	res.Levels, res.Notes = g.levels(res.Notes)
+	res.Members = g.members()
+	res.Legs = g.legs()
+	return res, nil
+}
+
+// scale returns mm per pixel from the marks' scale, or from two level points
+// on one leg when the marks give no scale.
+func (g *geom) scale() (float64, string, error) {
+	m := g.in.Marks
+	if m.Scale != nil {
+		a, b := g.pts[m.Scale.From], g.pts[m.Scale.To]
+		if a == nil || b == nil {
+			return 0, "", fmt.Errorf("measure: scale names unknown points %q, %q", m.Scale.From, m.Scale.To)
+		}
+		d := math.Hypot(a.ref[0]-b.ref[0], a.ref[1]-b.ref[1])
+		if !(d >= 1) || !(m.Scale.MM > 0) {
+			return 0, "", fmt.Errorf("measure: scale %s-%s is %.3g px long; need a known distance of at least 1 px", m.Scale.From, m.Scale.To, d)
+		}
+		return m.Scale.MM / d, "", nil
+	}
+	// Fallback: the longest run of one leg between two points with known plan and height.
+	best, bestPX := 0.0, 0.0
+	var bestA, bestB string
+	for _, ida := range g.order {
+		a := g.pts[ida]
+		if !a.hasPlan || !a.hasH || a.leg == "" {
+			continue
+		}
+		for _, idb := range g.order {
+			b := g.pts[idb]
+			if idb <= ida || !b.hasPlan || !b.hasH || b.leg != a.leg {
+				continue
+			}
+			d3 := math.Sqrt(sq(a.plan[0]-b.plan[0]) + sq(a.plan[1]-b.plan[1]) + sq(a.height-b.height))
+			dpx := math.Hypot(a.ref[0]-b.ref[0], a.ref[1]-b.ref[1])
+			if d3 > best && dpx >= 1 {
+				best, bestPX, bestA, bestB = d3, dpx, ida, idb
+			}
+		}
+	}
+	if best == 0 {
+		return 0, "", errors.New("measure: the marks give no scale (add a scale entry with a known distance, or a tower block with leg points at two levels)")
+	}
+	return best / bestPX, fmt.Sprintf("no scale entry in the marks; scale %.4f mm/px taken from leg points %s-%s and the tower block", best/bestPX, bestA, bestB), nil
+}
+
+func sq(x float64) float64 { return x * x }
+
+// camera returns the right vector r and toward-camera vector c in plan.
+func camera(m *marks.File) (r, c [2]float64) {
+	phi := 0.0
+	if m.Camera != nil {
+		phi = m.Camera.AzimuthDeg * math.Pi / 180
+	}
+	return [2]float64{math.Cos(phi), math.Sin(phi)}, [2]float64{math.Sin(phi), -math.Cos(phi)}
+}
+
+func nanSlice(n int) []float64 {
+	s := make([]float64, n)
+	for i := range s {
+		s[i] = math.NaN()
+	}
+	return s
+}
+
+// levels fits each level's rigid motion per row.
+func (g *geom) levels(notes []string) ([]Level, []string) {
+	byLevel := map[int][]*point{}
+	var nums []int
+	for _, id := range g.order {
+		p := g.pts[id]
+		if p.level < 0 || !p.hasPlan || p.col < 0 {
+			continue
+		}
+		if _, ok := byLevel[p.level]; !ok {
+			nums = append(nums, p.level)
+		}
+		byLevel[p.level] = append(byLevel[p.level], p)
+	}
+	sort.Ints(nums)
+	r, c := camera(g.in.Marks)
+	cam, camNote := g.fitCamera()
+	if camNote != "" {
+		notes = append(notes, camNote)
+	}
+	azNote := "; mark points on two faces and film from a camera azimuth of roughly 15-35 degrees off a face so the points sit at different depths"
+	var out []Level
+	for _, lv := range nums {
+		ps := byLevel[lv]
+		L := Level{Level: lv, TwistDeg: nanSlice(g.n), SwayMM: nanSlice(g.n), SettleMM: nanSlice(g.n)}
+		q := make([]float64, len(ps))
+		e := make([]float64, len(ps))
+		minX, maxX, minY, maxY := math.Inf(1), math.Inf(-1), math.Inf(1), math.Inf(-1)
+		for i, p := range ps {
+			L.Points = append(L.Points, p.id)
+			q[i] = p.plan[0]*r[0] + p.plan[1]*r[1]
+			e[i] = p.plan[0]*c[0] + p.plan[1]*c[1]
+			minX, maxX = math.Min(minX, p.plan[0]), math.Max(maxX, p.plan[0])
+			minY, maxY = math.Min(minY, p.plan[1]), math.Max(maxY, p.plan[1])
+		}
+		L.WidthMM = math.Max(maxX-minX, maxY-minY)
+		L.DepthSpreadMM = spread(e)
+		sL := g.s
+		// The level's own scale from its reference positions, when its points
+		// spread sideways: it absorbs the level's distance from the camera.
+		if len(ps) >= 2 && spread(q) > 0.3*L.WidthMM && L.WidthMM > 0 {
+			uref := make([]float64, len(ps))
+			for i, p := range ps {
+				uref[i] = p.ref[0]
+			}
+			slope, _ := lineFit(q, uref)
+			if slope > 0 {
+				sl := 1 / slope
+				if math.Abs(sl/g.s-1) <= 0.1 {
+					sL = sl
+				} else {
+					notes = append(notes, fmt.Sprintf("level %d: its marked points' plan positions and image positions disagree on scale by %.0f%% (check the camera azimuth, the tower sizes and the point legs); using the marks' scale", lv, 100*(sl/g.s-1)))
+				}
+			}
+		}
+		switch {
+		case len(ps) < 2:
+			L.Note = fmt.Sprintf("level %d has %d marked point with a plan position; twist and sway need at least two points at different depths (three give a check)%s", lv, len(ps), azNote)
+		case L.WidthMM <= 0 || L.DepthSpreadMM < MinDepthFrac*L.WidthMM:
+			L.Note = fmt.Sprintf("level %d: twist is not observable from this camera: its points span %.1f mm in depth, under %.0f%% of the level's %.1f mm width; sway is given assuming no twist%s", lv, L.DepthSpreadMM, 100*MinDepthFrac, L.WidthMM, azNote)
+		default:
+			L.Observable = true
+		}
+		for row := 0; row < g.n; row++ {
+			var qs, es, us []float64
+			var dv []float64
+			for i, p := range ps {
+				x, y, ok := g.at(p, row)
+				if !ok {
+					continue
+				}
+				qs = append(qs, q[i])
+				es = append(es, e[i])
+				us = append(us, sL*(x-p.ref[0])+q[i])
+				dv = append(dv, sL*(y-p.ref[1]))
+			}
+			if len(dv) > 0 {
+				L.SettleMM[row] = mean(dv)
+			}
+			if len(us) < 2 || len(ps) < 2 {
+				continue
+			}
+			if L.Observable && spread(es) >= MinDepthFrac*L.WidthMM {
+				th, a, ok := FitTwist(qs, es, us)
+				if ok {
+					L.TwistDeg[row] = th * 180 / math.Pi
+					L.SwayMM[row] = a
+				}
+			} else if !L.Observable {
+				// Sway with the twist taken as zero.
+				var d []float64
+				for i := range us {
+					d = append(d, us[i]-qs[i])
+				}
+				L.SwayMM[row] = mean(d)
+			}
+		}
+		if cam != nil && len(ps) >= 2 {
+			g.perspectiveLevel(cam, &L, ps, c)
+		}
+		out = append(out, L)
+	}
+	return out, notes
+}
+
+// fitCamera fits a pinhole camera to the marked points with known plan
+// positions and heights; nil (and a note) when they do not allow it.
+func (g *geom) fitCamera() (*Pinhole, string) {
+	var xyz [][3]float64
+	var uv [][2]float64
+	for _, id := range g.order {
+		p := g.pts[id]
+		if p.hasPlan && p.hasH {
+			xyz = append(xyz, [3]float64{p.plan[0], p.plan[1], p.height})
+			uv = append(uv, p.ref)
+		}
+	}
+	if len(xyz) == 0 {
+		return nil, "level motion from a near-orthographic view (no perspective correction): the marks give no level heights (add a tower block with levels_mm)"
+	}
+	cam, err := FitPinhole(xyz, uv)
+	if err != nil {
+		return nil, fmt.Sprintf("level motion from a near-orthographic view (no perspective correction): %v", err)
+	}
+	if cam.RMS > MaxCameraRMS {
+		return nil, fmt.Sprintf("level motion from a near-orthographic view: a pinhole camera fitted to the %d marked points with plan positions misses them by %.1f px RMS (over %.1f px), so the marks' plan positions, tower sizes or azimuth may be off", len(xyz), cam.RMS, MaxCameraRMS)
+	}
+	return cam, ""
+}
+
+// MaxCameraRMS is the largest reprojection error, px, at which the fitted
+// pinhole camera is trusted for perspective-corrected level motion.
+const MaxCameraRMS = 3.0
+
+// perspectiveLevel replaces the level's near-orthographic motion with a fit
+// through the pinhole camera wherever that fit succeeds.
+func (g *geom) perspectiveLevel(cam *Pinhole, L *Level, ps []*point, toward [2]float64) {
+	r, _ := camera(g.in.Marks)
+	var x0 [4]float64
+	for row := 0; row < g.n; row++ {
+		var xyz [][3]float64
+		var ref, obs [][2]float64
+		var es []float64
+		for _, p := range ps {
+			x, y, ok := g.at(p, row)
+			if !ok {
+				continue
+			}
+			xyz = append(xyz, [3]float64{p.plan[0], p.plan[1], p.height})
+			ref = append(ref, p.ref)
+			obs = append(obs, [2]float64{x, y})
+			es = append(es, p.plan[0]*toward[0]+p.plan[1]*toward[1])
+		}
+		if len(xyz) < 2 {
+			continue
+		}
+		twist := L.Observable && spread(es) >= MinDepthFrac*L.WidthMM
+		if L.Observable && !twist {
+			continue // this row lacks the points that show twist
+		}
+		if !twist {
+			x0[0] = 0
+		}
+		x, ok := cam.levelPose(xyz, ref, obs, toward, x0, 50, twist)
+		if !ok {
+			continue
+		}
+		x0 = x
+		if twist {
+			L.TwistDeg[row] = x[0] * 180 / math.Pi
+		}
+		L.SwayMM[row] = x[1]*r[0] + x[2]*r[1]
+		L.SettleMM[row] = x[3]
+	}
+}
+
+func spread(x []float64) float64 {
+	if len(x) == 0 {
+		return 0
+	}
+	lo, hi := x[0], x[0]
+	for _, v := range x {
+		lo, hi = math.Min(lo, v), math.Max(hi, v)
+	}
+	return hi - lo
+}
+
+func mean(x []float64) float64 {
+	s := 0.0
+	for _, v := range x {
+		s += v
+	}
+	return s / float64(len(x))
+}
+
+// lineFit returns slope and intercept of y on x by least squares.
+func lineFit(x, y []float64) (slope, icept float64) {
+	mx, my := mean(x), mean(y)
+	var sxy, sxx float64
+	for i := range x {
+		sxy += (x[i] - mx) * (y[i] - my)
+		sxx += (x[i] - mx) * (x[i] - mx)
+	}
+	if sxx == 0 {
+		return math.NaN(), math.NaN()
+	}
+	slope = sxy / sxx
+	return slope, my - slope*mx
+}
