@@ -1,0 +1,284 @@
+package review
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"math"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"testing"
+	"time"
+
+	"github.com/chromedp/chromedp"
+	"github.com/chromedp/chromedp/kb"
+
+	"github.com/failframe/failframe/tracking/marks"
+)
+
+var screenshotDir = flag.String("screenshots", "", "folder to save screenshots of the review page into (TestReviewScreenshots)")
+
+// newBrowser starts Debian's headless Chromium for one test.
+func newBrowser(t *testing.T) context.Context {
+	t.Helper()
+	path, err := exec.LookPath("chromium")
+	if err != nil {
+		if _, err := os.Stat("/usr/bin/chromium"); err != nil {
+			t.Skip("chromium is not installed (apt-get install chromium): the browser tests need it")
+		}
+		path = "/usr/bin/chromium"
+	}
+	opts := []chromedp.ExecAllocatorOption{
+		chromedp.ExecPath(path),
+		chromedp.Headless,
+		chromedp.NoSandbox,
+		chromedp.DisableGPU,
+		chromedp.NoFirstRun,
+		chromedp.NoDefaultBrowserCheck,
+		chromedp.Flag("disable-background-networking", true),
+		chromedp.Flag("disable-component-update", true),
+		chromedp.Flag("disable-sync", true),
+		chromedp.UserDataDir(t.TempDir()),
+		chromedp.WindowSize(1400, 900),
+	}
+	actx, cancelA := chromedp.NewExecAllocator(context.Background(), opts...)
+	ctx, cancelC := chromedp.NewContext(actx)
+	t.Cleanup(func() {
+		cancelC()
+		cancelA()
+	})
+	if err := chromedp.Do(ctx); err != nil {
+		t.Fatalf("start chromium: %v", err)
+	}
+	return ctx
+}
+
+// do runs browser steps with a time limit.
+func do(t *testing.T, ctx context.Context, what string, steps ...chromedp.Action[chromedp.Void]) {
+	t.Helper()
+	c, cancel := context.WithTimeout(ctx, 20*time.Second)
+	defer cancel()
+	if err := chromedp.Do(c, steps...); err != nil {
+		t.Fatalf("%s: %v", what, err)
+	}
+}
+
+func eval[T any](t *testing.T, ctx context.Context, js string) T {
+	t.Helper()
+	c, cancel := context.WithTimeout(ctx, 20*time.Second)
+	defer cancel()
+	v, err := chromedp.Run(c, chromedp.Evaluate[T](js))
+	if err != nil {
+		t.Fatalf("evaluate %s: %v", js, err)
+	}
+	return v
+}
+
+// waitFrame waits until the page shows frame n.
+func waitFrame(t *testing.T, ctx context.Context, n int) {
+	t.Helper()
+	js := fmt.Sprintf(`document.getElementById("frameImg").dataset.frame === "%d" && document.getElementById("frameNo").value === "%d"`, n, n)
+	c, cancel := context.WithTimeout(ctx, 20*time.Second)
+	defer cancel()
+	if _, err := chromedp.Run(c, chromedp.Poll[chromedp.Void](js)); err != nil {
+		shown := eval[string](t, ctx, `document.getElementById("frameImg").dataset.frame + " / " + document.getElementById("frameNo").value`)
+		t.Fatalf("page does not show frame %d (shows %s): %v", n, shown, err)
+	}
+}
+
+// imageSignature hashes the pixels of the image on the page.
+const imageSignature = `(() => {
+  const i = document.getElementById("frameImg");
+  const c = document.createElement("canvas");
+  c.width = i.naturalWidth; c.height = i.naturalHeight;
+  const x = c.getContext("2d");
+  x.drawImage(i, 0, 0);
+  const d = x.getImageData(0, 0, c.width, c.height).data;
+  let s = 0;
+  for (let k = 0; k < d.length; k += 4) s = (s * 31 + d[k] + 7 * d[k + 1]) >>> 0;
+  return s;
+})()`
+
+type rect struct{ Left, Top, Width, Height float64 }
+
+func rectOf(t *testing.T, ctx context.Context, id string) rect {
+	return eval[rect](t, ctx, fmt.Sprintf(`(() => { const r = document.getElementById(%q).getBoundingClientRect();
+	  return {Left: r.left, Top: r.top, Width: r.width, Height: r.height}; })()`, id))
+}
+
+func TestReviewPageInChromium(t *testing.T) {
+	dir := t.TempDir()
+	clip := makeClip(t, dir)
+	rep, _ := makeReport(t, dir)
+	mk := filepath.Join(dir, "new.marks.yaml")
+	_, base := startServer(t, Config{Clip: clip, Marks: mk, Report: rep, CaptureFPS: clipFPS})
+	ctx := newBrowser(t)
+
+	do(t, ctx, "open page", chromedp.Navigate(base))
+	waitFrame(t, ctx, 0)
+	sig0 := eval[uint32](t, ctx, imageSignature)
+
+	// Stepping: buttons and keys.
+	do(t, ctx, "step +1", chromedp.Click(chromedp.CSS(`[data-step="1"]`)))
+	waitFrame(t, ctx, 1)
+	if sig1 := eval[uint32](t, ctx, imageSignature); sig1 == sig0 {
+		t.Error("the image did not change from frame 0 to frame 1")
+	}
+	do(t, ctx, "shift+right", chromedp.KeyEvent(kb.ArrowRight, chromedp.KeyModifiers(chromedp.ModifierShift)))
+	waitFrame(t, ctx, 11)
+	do(t, ctx, "left", chromedp.KeyEvent(kb.ArrowLeft))
+	waitFrame(t, ctx, 10)
+	do(t, ctx, "step +100", chromedp.Click(chromedp.CSS(`[data-step="100"]`)))
+	waitFrame(t, ctx, 110)
+	do(t, ctx, "step +100 past the end", chromedp.Click(chromedp.CSS(`[data-step="100"]`)))
+	waitFrame(t, ctx, clipFrames-1)
+
+	// Jump to the break from the event list; time and load follow.
+	do(t, ctx, "event", chromedp.Click(chromedp.CSS(fmt.Sprintf(`#events li[data-frame="%d"]`, eventBreak))))
+	waitFrame(t, ctx, eventBreak)
+	// 77 frames at 480 fps = 160.42 ms; the load rises 10 g per ms: 1604 g.
+	if got := eval[string](t, ctx, `document.getElementById("timeLabel").textContent`); got != "t = 160.42 ms" {
+		t.Errorf("time label %q, want t = 160.42 ms", got)
+	}
+	if got := eval[string](t, ctx, `document.getElementById("loadLabel").textContent`); got != "load 1604 g" {
+		t.Errorf("load label %q, want load 1604 g", got)
+	}
+	if n := eval[int](t, ctx, `document.querySelectorAll("#ticks span").length`); n != 3 {
+		t.Errorf("%d event ticks on the scrubber, want 3", n)
+	}
+
+	// Clicking the chart jumps to that time.
+	ch := rectOf(t, ctx, "chart")
+	tEnd := float64(clipFrames-1) / clipFPS
+	cx := math.Round(ch.Left + 52 + 0.25*(ch.Width-62))
+	wantFrame := int(math.Round((cx - ch.Left - 52) / (ch.Width - 62) * tEnd * clipFPS))
+	do(t, ctx, "chart click", chromedp.MouseClickXY(cx, ch.Top+40))
+	waitFrame(t, ctx, wantFrame)
+
+	// Marking: three points placed by clicking on frame 30.
+	do(t, ctx, "go to 30", chromedp.SetValue(chromedp.ID("frameNo"), "30"),
+		chromedp.Evaluate[chromedp.Void](`document.getElementById("frameNo").dispatchEvent(new Event("change"))`))
+	waitFrame(t, ctx, 30)
+	do(t, ctx, "start marking", chromedp.Click(chromedp.ID("markToggle")))
+	ov := rectOf(t, ctx, "overlay")
+	s := ov.Width / clipW
+	if s < 1.5 {
+		t.Fatalf("frame shown at scale %.2f; the test wants it enlarged", s)
+	}
+	targets := [][2]float64{{60.3, 199.6}, {140.2, 120.7}, {219.9, 40.1}}
+	var clicks, want [][2]float64
+	for _, p := range targets {
+		x, y := math.Round(ov.Left+(p[0]+0.5)*s), math.Round(ov.Top+(p[1]+0.5)*s)
+		clicks = append(clicks, [2]float64{x, y})
+		// OpenCV convention: pixel centres on integers (see the package doc).
+		want = append(want, [2]float64{(x-ov.Left)/s - 0.5, (y-ov.Top)/s - 0.5})
+		do(t, ctx, "place point", chromedp.MouseClickXY(x, y))
+	}
+	if n := eval[int](t, ctx, `document.querySelectorAll("#pointTable tbody tr").length`); n != 3 {
+		t.Fatalf("%d points in the table after three clicks", n)
+	}
+	// Name the first point, then join it with the second into a brace.
+	do(t, ctx, "select first", chromedp.MouseClickXY(clicks[0][0], clicks[0][1]))
+	do(t, ctx, "rename", chromedp.Evaluate[chromedp.Void](`(() => { const e = document.getElementById("ptId"); e.value = "A1"; e.dispatchEvent(new Event("change")); })()`))
+	do(t, ctx, "choose two",
+		chromedp.MouseClickXY(clicks[0][0], clicks[0][1], chromedp.ButtonModifiers(chromedp.ModifierShift)),
+		chromedp.MouseClickXY(clicks[1][0], clicks[1][1], chromedp.ButtonModifiers(chromedp.ModifierShift)),
+		chromedp.SetValue(chromedp.ID("memId"), "AB-d1"),
+		chromedp.Click(chromedp.ID("joinBtn")))
+	if n := eval[int](t, ctx, `document.querySelectorAll("#memberList li").length`); n != 1 {
+		t.Fatalf("%d members after joining, want 1; status %q", n, eval[string](t, ctx, `document.getElementById("status").textContent`))
+	}
+	do(t, ctx, "save", chromedp.Click(chromedp.ID("saveMarks")))
+	c, cancel := context.WithTimeout(ctx, 20*time.Second)
+	_, err := chromedp.Run(c, chromedp.Poll[chromedp.Void](`document.body.dataset.saved`))
+	cancel()
+	if err != nil {
+		t.Fatalf("marks not saved: %v; status %q", err, eval[string](t, ctx, `document.getElementById("status").textContent`))
+	}
+
+	m, err := marks.Load(mk)
+	if err != nil {
+		t.Fatalf("saved marks do not load: %v", err)
+	}
+	if err := m.CheckBounds(clipW, clipH); err != nil {
+		t.Error(err)
+	}
+	if m.ReferenceFrame != 30 || len(m.Points) != 3 {
+		t.Fatalf("saved marks: reference frame %d, %d points; want 30 and 3", m.ReferenceFrame, len(m.Points))
+	}
+	for i, p := range m.Points {
+		if dx, dy := p.PX[0]-want[i][0], p.PX[1]-want[i][1]; math.Hypot(dx, dy) > 0.5 {
+			t.Errorf("point %s at %v, clicked at %v (%.3f px off)", p.ID, p.PX, want[i], math.Hypot(dx, dy))
+		}
+	}
+	if m.Points[0].ID != "A1" {
+		t.Errorf("first point named %q, want A1", m.Points[0].ID)
+	}
+	if len(m.Members) != 1 || m.Members[0].ID != "AB-d1" || m.Members[0].Kind != "brace" ||
+		len(m.Members[0].Points) != 2 || m.Members[0].Points[0] != "A1" || m.Members[0].Points[1] != m.Points[1].ID {
+		t.Errorf("members %+v, want brace AB-d1 joining A1 and %s", m.Members, m.Points[1].ID)
+	}
+
+	// Reopening shows the same marks.
+	do(t, ctx, "reload", chromedp.Navigate(base))
+	waitFrame(t, ctx, 0)
+	c, cancel = context.WithTimeout(ctx, 20*time.Second)
+	_, err = chromedp.Run(c, chromedp.Poll[chromedp.Void](`document.querySelectorAll("#pointTable tbody tr").length === 3 &&
+		document.querySelectorAll("#memberList li").length === 1 && document.getElementById("refFrame").textContent === "30"`))
+	cancel()
+	if err != nil {
+		t.Errorf("the reopened page does not show the saved marks: %v", err)
+	}
+}
+
+// TestReviewScreenshots saves screenshots of the page in a few states into
+// the folder given with -screenshots (make screenshots).
+func TestReviewScreenshots(t *testing.T) {
+	if *screenshotDir == "" {
+		t.Skip("no -screenshots folder given")
+	}
+	if err := os.MkdirAll(*screenshotDir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	clip := makeClip(t, dir)
+	rep, mk := makeReport(t, dir)
+	_, base := startServer(t, Config{Clip: clip, Marks: mk, Report: rep})
+	ctx := newBrowser(t)
+	shot := func(name string) {
+		t.Helper()
+		c, cancel := context.WithTimeout(ctx, 20*time.Second)
+		defer cancel()
+		png, err := chromedp.Run(c, chromedp.CaptureScreenshot())
+		if err != nil {
+			t.Fatal(err)
+		}
+		p := filepath.Join(*screenshotDir, name)
+		if err := os.WriteFile(p, png, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		t.Logf("wrote %s", p)
+	}
+
+	do(t, ctx, "open", chromedp.Navigate(base))
+	waitFrame(t, ctx, 0)
+	do(t, ctx, "labels", chromedp.Click(chromedp.ID("ovLabels")))
+	do(t, ctx, "event", chromedp.Click(chromedp.CSS(fmt.Sprintf(`#events li[data-frame="%d"]`, eventBreak))))
+	waitFrame(t, ctx, eventBreak)
+	shot("review-event.png")
+
+	do(t, ctx, "marking", chromedp.Click(chromedp.ID("markToggle")))
+	waitFrame(t, ctx, 0)
+	ov := rectOf(t, ctx, "overlay")
+	s := ov.Width / clipW
+	x, y := ov.Left+(140.5)*s, ov.Top+(120.5)*s
+	do(t, ctx, "select and hover", chromedp.MouseClickXY(x, y), chromedp.MouseEvent(chromedp.MouseMoved, x+3, y+2))
+	shot("review-marking.png")
+
+	do(t, ctx, "stop marking", chromedp.Click(chromedp.ID("markToggle")),
+		chromedp.Evaluate[chromedp.Void](`document.getElementById("keysBox").open = true`))
+	do(t, ctx, "collapse", chromedp.Click(chromedp.CSS(`#events li[data-frame="100"]`)))
+	waitFrame(t, ctx, 100)
+	shot("review-collapse-keys.png")
+}
