@@ -80,7 +80,7 @@ func TestRender(t *testing.T) {
 		},
 		Sheet:    []int{20, 30, 40, 50, 60, 70},
 		ClipFrom: 25, ClipTo: 75, ClipFPS: 25,
-		Stamp:    func(f int) string { return fmt.Sprintf("frame %d", f) },
+		Stamp: func(f int) string { return fmt.Sprintf("frame %d", f) },
 	}
 	out, err := Render(src, ov, req, filepath.Join(dir, "evidence"))
 	if err != nil {
