@@ -117,6 +117,10 @@ func ReadReport(dir string) (*report.Result, []byte, error) {
 	if res.Version < 1 || res.Version > report.ResultVersion {
 		return nil, nil, notReport("version %d; this failframe reads version 1 to %d", res.Version, report.ResultVersion)
 	}
+	// The report package's own reader is the final word on what it wrote.
+	if _, err := report.ReadResult(dir); err != nil {
+		return nil, nil, notReport("%v", err)
+	}
 	for _, p := range []*float64{res.PeakLoadG, res.MassG, res.Efficiency} {
 		if p != nil && (math.IsNaN(*p) || math.IsInf(*p, 0) || *p < 0) {
 			return nil, nil, notReport("negative or non-finite load, mass or efficiency")

@@ -19,6 +19,7 @@ import (
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/plotutil"
 	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
 )
 
 // CompareRow is one line of a comparison: a build and one of its tests
@@ -259,7 +260,9 @@ func plotEfficiencyByBuild(rows []CompareRow) (*plot.Plot, string, error) {
 	bars.Color = plotutil.Color(0)
 	p.Add(bars)
 	p.NominalX(names...)
+	p.X.Min, p.X.Max = -0.6, float64(len(names))-0.4
 	p.Y.Min = 0
+	p.Y.Max = maxOf(vals) * 1.1
 	return p, "", nil
 }
 
@@ -281,13 +284,19 @@ func plotEfficiencyVsMass(rows []CompareRow) (*plot.Plot, string, error) {
 		return nil, "", err
 	}
 	sc.GlyphStyle.Color = plotutil.Color(1)
-	sc.GlyphStyle.Radius = vg.Points(3)
+	sc.GlyphStyle.Radius = vg.Points(3.5)
+	sc.GlyphStyle.Shape = draw.CircleGlyph{}
 	labels, err := plotter.NewLabels(lab)
 	if err != nil {
 		return nil, "", err
 	}
 	p.Add(sc, labels)
+	var xs, ys plotter.Values
+	for _, xy := range lab.XYs {
+		xs, ys = append(xs, xy.X), append(ys, xy.Y)
+	}
 	p.X.Min, p.Y.Min = 0, 0
+	p.X.Max, p.Y.Max = maxOf(xs)*1.2, maxOf(ys)*1.1
 	return p, "", nil
 }
 
@@ -345,6 +354,26 @@ func plotModesByBracing(rows []CompareRow) (*plot.Plot, string, error) {
 	}
 	p.Legend.Top = true
 	p.NominalX(bracings...)
+	p.X.Min, p.X.Max = -0.6, float64(len(bracings))-0.4
+	var most float64
+	for _, b := range bracings {
+		var n float64
+		for _, m := range modes {
+			n += counts[m][b]
+		}
+		most = math.Max(most, n)
+	}
 	p.Y.Min = 0
+	// Room above the bars for the legend, one line per mode.
+	p.Y.Max = most * (1.15 + 0.12*float64(len(modes)))
 	return p, "", nil
+}
+
+// maxOf returns the largest value (0 for none).
+func maxOf(vs plotter.Values) float64 {
+	m := 0.0
+	for _, v := range vs {
+		m = math.Max(m, v)
+	}
+	return m
 }
