@@ -5,6 +5,7 @@ import (
 	"bytes"
 	"crypto/md5"
 	"fmt"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -107,19 +108,26 @@ func mjpegAVI(t testing.TB) string {
 
 // ffFrame is one line of ffmpeg's framemd5 output.
 type ffFrame struct {
-	PTS int
-	MD5 string
+	// Frame is the frame number from the timestamp (pts x time base x rate).
+	Frame int
+	MD5   string
 }
 
 // ffmpegFrames decodes path with the ffmpeg CLI and returns each frame's
 // timestamp (in the stream's time base) and the MD5 of its BGR pixels.
 func ffmpegFrames(t testing.TB, path string) []ffFrame {
 	t.Helper()
-	out := run(t, "ffmpeg", "-v", "error", "-i", path, "-map", "0:v:0", "-pix_fmt", "bgr24", "-f", "framemd5", "-")
+	// passthrough: no frames duplicated or dropped to fill gaps in time.
+	out := run(t, "ffmpeg", "-v", "quiet", "-i", path, "-map", "0:v:0", "-fps_mode", "passthrough", "-pix_fmt", "bgr24", "-f", "framemd5", "-")
+	rate := parseRatio(t, ffprobeValue(t, path, "r_frame_rate"))
+	tb := 0.0
 	var frames []ffFrame
 	sc := bufio.NewScanner(strings.NewReader(out))
 	for sc.Scan() {
 		line := sc.Text()
+		if v, ok := strings.CutPrefix(line, "#tb 0:"); ok {
+			tb = parseRatio(t, strings.TrimSpace(v))
+		}
 		if strings.HasPrefix(line, "#") || strings.TrimSpace(line) == "" {
 			continue
 		}
@@ -131,9 +139,27 @@ func ffmpegFrames(t testing.TB, path string) []ffFrame {
 		if err != nil {
 			t.Fatalf("framemd5 line %q: %v", line, err)
 		}
-		frames = append(frames, ffFrame{PTS: pts, MD5: strings.TrimSpace(f[5])})
+		if tb == 0 {
+			t.Fatalf("framemd5 of %s: no time base line", path)
+		}
+		frames = append(frames, ffFrame{Frame: int(math.Round(float64(pts) * tb * rate)), MD5: strings.TrimSpace(f[5])})
 	}
 	return frames
+}
+
+// parseRatio reads "30000/1001" or "30".
+func parseRatio(t testing.TB, s string) float64 {
+	t.Helper()
+	num, den, ok := strings.Cut(s, "/")
+	a, err1 := strconv.ParseFloat(num, 64)
+	b, err2 := 1.0, error(nil)
+	if ok {
+		b, err2 = strconv.ParseFloat(den, 64)
+	}
+	if err1 != nil || err2 != nil || b == 0 {
+		t.Fatalf("ratio %q", s)
+	}
+	return a / b
 }
 
 // ffprobeCount is ffprobe's count of decoded video frames.

@@ -1,6 +1,7 @@
 package capture
 
 import (
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"image"
@@ -15,7 +16,6 @@ import (
 	"strings"
 
 	"gocv.io/x/gocv"
-	_ "golang.org/x/image/tiff"
 )
 
 // imageExts are the still-image file types read from a folder, by extension.
@@ -134,6 +134,9 @@ func imageSize(path string) (int, int, error) {
 		return 0, 0, err
 	}
 	defer f.Close()
+	if ext := strings.ToLower(filepath.Ext(path)); ext == ".tif" || ext == ".tiff" {
+		return tiffSize(f)
+	}
 	cfg, _, err := image.DecodeConfig(f)
 	if err != nil {
 		return 0, 0, fmt.Errorf("not a readable image: %w", err)
@@ -174,3 +177,58 @@ func (s *imageSource) Seek(frame int) error {
 }
 
 func (s *imageSource) Close() error { return nil }
+
+// tiffSize reads ImageWidth and ImageLength from a TIFF file's first image
+// directory (TIFF 6.0, section 2), whatever the pixel layout.
+func tiffSize(r io.ReaderAt) (int, int, error) {
+	bad := errors.New("not a readable image: bad TIFF header")
+	hdr := make([]byte, 8)
+	if _, err := r.ReadAt(hdr, 0); err != nil {
+		return 0, 0, bad
+	}
+	var bo binary.ByteOrder
+	switch string(hdr[:2]) {
+	case "II":
+		bo = binary.LittleEndian
+	case "MM":
+		bo = binary.BigEndian
+	default:
+		return 0, 0, bad
+	}
+	if bo.Uint16(hdr[2:]) != 42 {
+		return 0, 0, bad
+	}
+	off := int64(bo.Uint32(hdr[4:]))
+	cnt := make([]byte, 2)
+	if _, err := r.ReadAt(cnt, off); err != nil {
+		return 0, 0, bad
+	}
+	n := int(bo.Uint16(cnt))
+	entries := make([]byte, 12*n)
+	if _, err := r.ReadAt(entries, off+2); err != nil {
+		return 0, 0, bad
+	}
+	w, h := 0, 0
+	for i := 0; i < n; i++ {
+		e := entries[12*i:]
+		var v int
+		switch bo.Uint16(e[2:]) { // field type
+		case 3: // SHORT
+			v = int(bo.Uint16(e[8:]))
+		case 4: // LONG
+			v = int(bo.Uint32(e[8:]))
+		default:
+			continue
+		}
+		switch bo.Uint16(e) {
+		case 256:
+			w = v
+		case 257:
+			h = v
+		}
+	}
+	if w <= 0 || h <= 0 {
+		return 0, 0, bad
+	}
+	return w, h, nil
+}

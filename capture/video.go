@@ -101,6 +101,9 @@ type videoSource struct {
 	// ended is set once the stream has ended; endReported once a short
 	// stream (fewer frames than the container lists) has been reported.
 	ended, endReported bool
+	// unsure is set after a decoding failure until a frame with a
+	// timestamp fixes the frame numbers again.
+	unsure bool
 }
 
 func openVideo(path string, opt Options) (Source, error) {
@@ -213,6 +216,7 @@ func (s *videoSource) resetCursor(next int) {
 	s.heldOK = false
 	s.ended = false
 	s.endReported = false
+	s.unsure = false
 }
 
 // ptsFrame returns the frame number of the last decoded frame from its
@@ -261,35 +265,60 @@ func (s *videoSource) Read(dst *gocv.Mat) (int, error) {
 		return s.next, io.EOF
 	}
 	failed := 0
-	for !s.vc.Read(dst) || dst.Empty() {
-		failed++
-		if failed < readRetries {
-			continue // a damaged packet; the decoder goes on with the next
+	var idx int
+	for {
+		if !s.vc.Read(dst) || dst.Empty() {
+			failed++
+			if failed < readRetries {
+				continue // a damaged packet; the decoder goes on with the next
+			}
+			s.ended = true
+			short := s.info.FrameCount > 0 && s.next < s.info.FrameCount
+			if (short || s.unsure) && !s.endReported {
+				s.endReported = true
+				msg := fmt.Sprintf("the stream ends here but the container lists %d frames", s.info.FrameCount)
+				if !short {
+					msg = "the stream ends in a damaged stretch"
+				}
+				return s.next, &FrameError{Path: s.info.Path, Frame: s.next, Err: fmt.Errorf("%w: %s", ErrShortClip, msg)}
+			}
+			return s.next, io.EOF
 		}
-		short := s.info.FrameCount > 0 && s.next < s.info.FrameCount
-		s.ended = true
-		if short && !s.endReported {
-			s.endReported = true
-			return s.next, &FrameError{Path: s.info.Path, Frame: s.next, Err: fmt.Errorf("%w: the stream ends here but the container lists %d frames", ErrShortClip, s.info.FrameCount)}
+		if dst.Cols() != s.info.Width || dst.Rows() != s.info.Height {
+			// Not a frame of this clip's size: treat it as undecodable; it
+			// shows as a gap before the next good frame.
+			failed++
+			s.unsure = s.unsure || !s.ptsOK
+			continue
 		}
-		return s.next, io.EOF
-	}
-	idx, known := s.ptsFrame()
-	switch {
-	case !known:
-		// No usable timestamp: count. Each failed read is taken as one lost
-		// frame, the best that can be said without timestamps.
-		idx = s.next + failed
-	case idx < s.next:
-		// Timestamps went backwards: stop trusting them and count.
-		s.ptsOK = false
-		idx = s.next + failed
-	}
-	if dst.Cols() != s.info.Width || dst.Rows() != s.info.Height {
-		f := s.next
-		s.next = idx + 1
-		s.gapEnd = s.next
-		return f, s.frameErr(idx, "frame is %dx%d, the clip is %dx%d", dst.Cols(), dst.Rows(), s.info.Width, s.info.Height)
+		var known bool
+		idx, known = s.ptsFrame()
+		if !known && s.ptsOK && (failed > 0 || s.unsure) {
+			// A frame after a decoding failure with no timestamp (frames
+			// flushed from the decoder have none): its number cannot be
+			// told, so it is dropped rather than numbered by guess. The
+			// frames lost show as a gap before the next timestamped frame,
+			// or as a short clip at the end.
+			s.unsure = true
+			failed++
+			if failed < readRetries {
+				continue
+			}
+		}
+		switch {
+		case known:
+			s.unsure = false
+		case !known:
+			// No usable timestamp: count. Each failed read is taken as one lost
+			// frame, the best that can be said without timestamps.
+			idx = s.next + failed
+		}
+		if known && idx < s.next {
+			// Timestamps went backwards: stop trusting them and count.
+			s.ptsOK = false
+			idx = s.next + failed
+		}
+		break
 	}
 	if idx > s.next {
 		// Frames next..idx-1 were lost: report them one by one, then idx.
@@ -313,6 +342,15 @@ func (s *videoSource) grab() (gap, ok bool) {
 		s.vc.Grab(1)
 		if s.vc.Get(gocv.VideoCapturePosFrames) > before {
 			idx, known := s.ptsFrame()
+			if !known && s.ptsOK && (failed > 0 || s.unsure) {
+				// Its number cannot be told: let seekSlow sort it out.
+				s.unsure = true
+				s.next = math.MaxInt32
+				return true, true
+			}
+			if known {
+				s.unsure = false
+			}
 			if !known || idx < s.next {
 				idx = s.next + failed
 			}

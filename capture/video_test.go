@@ -77,6 +77,9 @@ func TestReadMatchesFFmpeg(t *testing.T) {
 				t.Fatalf("decoded %d frames, bad %v; ffmpeg decoded %d", len(good), bad, len(ff))
 			}
 			for i, f := range ff {
+				if f.Frame != i {
+					t.Fatalf("ffmpeg frame %d has timestamp of frame %d", i, f.Frame)
+				}
 				if good[i] != f.MD5 {
 					t.Errorf("frame %d: md5 %s, ffmpeg %s", i, good[i], f.MD5)
 				}
