@@ -55,6 +55,7 @@ func exitCode(err error) int {
 		flagErr  *FlagError
 		inErr    *InputError
 		frameErr *capture.FrameError
+		clipErr  *capture.ClipError
 		marksErr *marks.Error
 	)
 	switch {
@@ -64,7 +65,7 @@ func exitCode(err error) int {
 		return ExitUsage
 	case errors.Is(err, errCancelled):
 		return ExitCancelled
-	case errors.As(err, &inErr), errors.As(err, &frameErr), errors.As(err, &marksErr),
+	case errors.As(err, &inErr), errors.As(err, &frameErr), errors.As(err, &clipErr), errors.As(err, &marksErr),
 		errors.Is(err, fs.ErrNotExist), errors.Is(err, fs.ErrPermission):
 		return ExitBadInput
 	}
