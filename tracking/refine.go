@@ -1,0 +1,257 @@
+package tracking
+
+import "math"
+
+// grayImage is a view of an 8-bit single-channel frame: pixel (x, y) is
+// pix[y*stride+x]. It aliases a gocv.Mat's memory; no copy is made.
+type grayImage struct {
+	pix           []uint8
+	width, height int
+	stride        int
+}
+
+// template is a point's reference patch: the reference frame's pixels on an
+// integer grid of (2r+1)^2 around anchor, made zero-mean, with the gradients
+// and the Gauss-Newton matrix of the inverse-compositional refinement
+// (Baker & Matthews, "Lucas-Kanade 20 Years On", IJCV 56:221-255, 2004),
+// precomputed once. Pixels are weighted by a Gaussian centred on the point,
+// so the marker counts more than the background at the window's edge, which
+// may not move with it.
+type template struct {
+	r      int
+	n      int       // (2r+1)^2
+	wt     []float64 // pixel weights, summing to 1
+	t      []float64 // zero-mean (weighted) reference values
+	norm   float64   // sqrt(sum wt t^2)
+	gx, gy []float64 // weighted gradients of t: wt * dt/dx, wt * dt/dy
+	// inverse of the 2x2 Gauss-Newton matrix sum(wt grad grad^T)
+	hxx, hxy, hyy float64
+	// minEig is the smaller eigenvalue of the weighted structure matrix
+	// divided by the weighted patch variance: a texture figure in 1/px^2
+	// that does not depend on contrast.
+	minEig float64
+	// anchorX, anchorY is the integer grid centre in the reference frame.
+	anchorX, anchorY int
+}
+
+// newTemplate cuts a template of half-size r around (ax, ay) out of img,
+// weighted by a Gaussian of the given sigma (0 = uniform). The patch and a
+// 2-pixel border for the gradients must lie inside img.
+func newTemplate(img grayImage, ax, ay, r int, sigma float64) *template {
+	side := 2*r + 1
+	tp := &template{r: r, n: side * side, anchorX: ax, anchorY: ay}
+	tp.t = make([]float64, tp.n)
+	tp.wt = make([]float64, tp.n)
+	tp.gx = make([]float64, tp.n)
+	tp.gy = make([]float64, tp.n)
+	at := func(x, y int) float64 { return float64(img.pix[y*img.stride+x]) }
+	var sum, wsum float64
+	k := 0
+	for v := -r; v <= r; v++ {
+		for u := -r; u <= r; u++ {
+			x, y := ax+u, ay+v
+			w := 1.0
+			if sigma > 0 {
+				w = math.Exp(-float64(u*u+v*v) / (2 * sigma * sigma))
+			}
+			tp.wt[k] = w
+			wsum += w
+			tp.t[k] = at(x, y)
+			sum += w * tp.t[k]
+			// Fourth-order central differences (common practice).
+			tp.gx[k] = (at(x-2, y) - 8*at(x-1, y) + 8*at(x+1, y) - at(x+2, y)) / 12
+			tp.gy[k] = (at(x, y-2) - 8*at(x, y-1) + 8*at(x, y+1) - at(x, y+2)) / 12
+			k++
+		}
+	}
+	mean := sum / wsum
+	var ss, sxx, sxy, syy float64
+	for i := range tp.t {
+		tp.wt[i] /= wsum
+		w := tp.wt[i]
+		tp.t[i] -= mean
+		ss += w * tp.t[i] * tp.t[i]
+		sxx += w * tp.gx[i] * tp.gx[i]
+		sxy += w * tp.gx[i] * tp.gy[i]
+		syy += w * tp.gy[i] * tp.gy[i]
+		tp.gx[i] *= w
+		tp.gy[i] *= w
+	}
+	tp.norm = math.Sqrt(ss)
+	det := sxx*syy - sxy*sxy
+	if det > 0 {
+		tp.hxx, tp.hxy, tp.hyy = syy/det, -sxy/det, sxx/det
+	}
+	tr := sxx + syy
+	lmin := tr/2 - math.Sqrt(math.Max(0, tr*tr/4-det))
+	if ss > 0 {
+		tp.minEig = lmin / ss
+	}
+	return tp
+}
+
+// refiner holds scratch buffers for refinement so the per-frame loop does not
+// allocate.
+type refiner struct {
+	tmp []float64 // horizontal pass, (2r+1+taps-1) rows x (2r+1)
+	w   []float64 // resampled patch
+	blk []float64 // frame block as floats
+}
+
+func (rf *refiner) ensure(r int) {
+	side := 2*r + 1
+	if len(rf.w) < side*side {
+		rf.w = make([]float64, side*side)
+		rf.tmp = make([]float64, (side+taps-1)*side)
+		rf.blk = make([]float64, (side+taps-1)*(side+taps-1))
+	}
+}
+
+// keys6 is Keys' six-point cubic convolution kernel, third-order accurate
+// (Keys, "Cubic convolution interpolation for digital image processing",
+// IEEE Trans. ASSP 29:1153-1160, 1981, eq. 28). Its flatter frequency
+// response than the four-point kernel halves the periodic sub-pixel bias.
+func keys6(s float64) float64 {
+	s = math.Abs(s)
+	switch {
+	case s < 1:
+		return (4.0/3*s-7.0/3)*s*s + 1
+	case s < 2:
+		return ((-7.0/12*s+3)*s-59.0/12)*s + 5.0/2
+	case s < 3:
+		return ((1.0/12*s-2.0/3)*s+7.0/4)*s - 3.0/2
+	}
+	return 0
+}
+
+// taps is the number of interpolation taps; the first is at offset -2.
+const taps = 6
+
+// kernelWeights fills w with the weights of the taps at -2..3 around a
+// fractional offset f in [0, 1).
+func kernelWeights(f float64, w *[taps]float64) {
+	for k := range w {
+		w[k] = keys6(f - float64(k-2))
+	}
+}
+
+// sample resamples img on the template grid centred at (cx, cy) into rf.w and
+// returns the patch mean. ok is false when the patch leaves the image.
+func (rf *refiner) sample(img grayImage, r int, cx, cy float64) (mean float64, ok bool) {
+	side := 2*r + 1
+	fx, fy := math.Floor(cx), math.Floor(cy)
+	ix, iy := int(fx), int(fy)
+	if ix-r-2 < 0 || iy-r-2 < 0 || ix+r+3 >= img.width || iy+r+3 >= img.height {
+		return 0, false
+	}
+	var ax, ay [taps]float64
+	kernelWeights(cx-fx, &ax)
+	kernelWeights(cy-fy, &ay)
+	// Convert the block once, then filter rows, then columns.
+	rows := side + taps - 1
+	blk := rf.blk[:rows*rows]
+	for j := 0; j < rows; j++ {
+		src := img.pix[(iy-r-2+j)*img.stride+ix-r-2:]
+		src = src[:rows]
+		dst := blk[j*rows : (j+1)*rows]
+		for i, v := range src {
+			dst[i] = float64(v)
+		}
+	}
+	for j := 0; j < rows; j++ {
+		b := blk[j*rows : (j+1)*rows]
+		out := rf.tmp[j*side : (j+1)*side]
+		b = b[:len(out)+taps-1]
+		for i := range out {
+			out[i] = ax[0]*b[i] + ax[1]*b[i+1] + ax[2]*b[i+2] + ax[3]*b[i+3] + ax[4]*b[i+4] + ax[5]*b[i+5]
+		}
+	}
+	var sum float64
+	for j := 0; j < side; j++ {
+		r0 := rf.tmp[j*side : (j+1)*side]
+		r1 := rf.tmp[(j+1)*side : (j+2)*side]
+		r2 := rf.tmp[(j+2)*side : (j+3)*side]
+		r3 := rf.tmp[(j+3)*side : (j+4)*side]
+		r4 := rf.tmp[(j+4)*side : (j+5)*side]
+		r5 := rf.tmp[(j+5)*side : (j+6)*side]
+		out := rf.w[j*side : (j+1)*side]
+		r0, r1, r2, r3, r4, r5 = r0[:len(out)], r1[:len(out)], r2[:len(out)], r3[:len(out)], r4[:len(out)], r5[:len(out)]
+		for i := range out {
+			v := ay[0]*r0[i] + ay[1]*r1[i] + ay[2]*r2[i] + ay[3]*r3[i] + ay[4]*r4[i] + ay[5]*r5[i]
+			out[i] = v
+			sum += v
+		}
+	}
+	return sum / float64(side*side), true
+}
+
+// refineResult is the outcome of one refinement.
+type refineResult struct {
+	x, y      float64 // template centre in the current frame
+	zncc      float64 // zero-mean normalised cross-correlation at the end
+	converged bool
+	ok        bool // false when the patch left the frame or had no contrast
+}
+
+// refine aligns template tp to img by inverse-compositional Gauss-Newton on
+// the zero-mean normalised sum of squared differences, starting with the
+// template centre at (x, y). Gain and offset changes (flicker) cancel out of
+// the criterion. It stops when the step is below eps pixels or after maxIter
+// iterations, or when the centre moves more than maxMove from the start.
+func (rf *refiner) refine(tp *template, img grayImage, x, y float64, maxIter int, eps, maxMove float64) refineResult {
+	rf.ensure(tp.r)
+	x0, y0 := x, y
+	res := refineResult{x: x, y: y}
+	if tp.norm == 0 || (tp.hxx == 0 && tp.hyy == 0) {
+		return res
+	}
+	n := tp.n
+	for it := 0; it < maxIter; it++ {
+		if _, ok := rf.sample(img, tp.r, x, y); !ok {
+			return res
+		}
+		w := rf.w[:n]
+		wt := tp.wt[:n]
+		tt := tp.t[:n]
+		var mean float64
+		for i, v := range w {
+			mean += wt[i] * v
+		}
+		var ss, cross float64
+		for i, v := range w {
+			d := v - mean
+			ss += wt[i] * d * d
+			cross += wt[i] * d * tt[i]
+		}
+		if ss == 0 {
+			return res
+		}
+		wn := math.Sqrt(ss)
+		scale := tp.norm / wn
+		var bx, by float64
+		gx, gy := tp.gx[:n], tp.gy[:n]
+		for i, v := range w {
+			e := (v-mean)*scale - tt[i]
+			bx += gx[i] * e
+			by += gy[i] * e
+		}
+		dx := tp.hxx*bx + tp.hxy*by
+		dy := tp.hxy*bx + tp.hyy*by
+		res.zncc = cross / (wn * tp.norm)
+		res.x, res.y, res.ok = x, y, true
+		x -= dx
+		y -= dy
+		if math.Hypot(x-x0, y-y0) > maxMove {
+			res.ok = false
+			return res
+		}
+		if dx*dx+dy*dy < eps*eps {
+			res.converged = true
+			break
+		}
+	}
+	// The score is the one at the last iterate, which is within one step
+	// (below eps when converged) of the final position.
+	res.x, res.y = x, y
+	return res
+}

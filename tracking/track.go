@@ -1,0 +1,117 @@
+package tracking
+
+import (
+	"errors"
+	"fmt"
+	"io"
+
+	"gocv.io/x/gocv"
+
+	"github.com/failframe/failframe/capture"
+	"github.com/failframe/failframe/tracking/marks"
+	"github.com/failframe/failframe/tracking/tracks"
+)
+
+// Range is a run of frames to track.
+type Range struct {
+	// From is the first frame.
+	From int
+	// To is the last frame, included; negative means to the end of the clip.
+	To int
+}
+
+// Hooks let a caller share the decoded frames and follow progress.
+type Hooks struct {
+	// OnFrame, when set, is called with every decoded frame (BGR) after it
+	// has been tracked; an error stops tracking and is returned.
+	OnFrame func(frame int, img gocv.Mat) error
+	// Progress, when set, is called after each frame with the frames done and
+	// the total (0 when the total is not known).
+	Progress func(done, total int)
+}
+
+// Track follows the points of m through src over rng: it reads the reference
+// frame m.ReferenceFrame, then every frame of the range once. A frame that
+// cannot be decoded stops tracking with an error naming it.
+func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hooks) (*tracks.Tracks, error) {
+	info := src.Info()
+	if rng.From < 0 {
+		return nil, fmt.Errorf("track %s: first frame %d is negative", info.Path, rng.From)
+	}
+	if rng.To >= 0 && rng.To < rng.From {
+		return nil, fmt.Errorf("track %s: last frame %d is before the first frame %d", info.Path, rng.To, rng.From)
+	}
+	if info.FrameCount > 0 && rng.From >= info.FrameCount {
+		return nil, fmt.Errorf("track %s: first frame %d is past the end of the clip (%d frames)", info.Path, rng.From, info.FrameCount)
+	}
+	if err := m.CheckBounds(info.Width, info.Height); err != nil {
+		return nil, err
+	}
+	img := gocv.NewMat()
+	defer img.Close()
+
+	// The reference frame.
+	if err := src.Seek(m.ReferenceFrame); err != nil {
+		return nil, fmt.Errorf("track %s: reference frame %d: %w", info.Path, m.ReferenceFrame, err)
+	}
+	if _, err := src.Read(&img); err != nil {
+		if errors.Is(err, io.EOF) {
+			return nil, fmt.Errorf("track %s: reference frame %d is past the end of the clip", info.Path, m.ReferenceFrame)
+		}
+		return nil, fmt.Errorf("track %s: reference frame %d: %w", info.Path, m.ReferenceFrame, err)
+	}
+	tr, err := New(m, img, opt)
+	if err != nil {
+		return nil, err
+	}
+	defer tr.Close()
+
+	if err := src.Seek(rng.From); err != nil {
+		return nil, fmt.Errorf("track %s: first frame %d: %w", info.Path, rng.From, err)
+	}
+	total := 0
+	if info.FrameCount > 0 {
+		last := info.FrameCount - 1
+		if rng.To >= 0 && rng.To < last {
+			last = rng.To
+		}
+		total = last - rng.From + 1
+	} else if rng.To >= 0 {
+		total = rng.To - rng.From + 1
+	}
+	out := &tracks.Tracks{IDs: tr.IDs()}
+	if total > 0 {
+		out.Frames = make([]int, 0, total)
+		out.Samples = make([][]tracks.Sample, 0, total)
+	}
+	for {
+		frame, err := src.Read(&img)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return nil, fmt.Errorf("track %s: %w", info.Path, err)
+		}
+		if rng.To >= 0 && frame > rng.To {
+			break
+		}
+		s, err := tr.Step(frame, img)
+		if err != nil {
+			return nil, fmt.Errorf("track %s: %w", info.Path, err)
+		}
+		out.Frames = append(out.Frames, frame)
+		out.Samples = append(out.Samples, s)
+		if hooks.OnFrame != nil {
+			if err := hooks.OnFrame(frame, img); err != nil {
+				return nil, err
+			}
+		}
+		if hooks.Progress != nil {
+			hooks.Progress(len(out.Frames), total)
+		}
+	}
+	if len(out.Frames) == 0 {
+		return nil, fmt.Errorf("track %s: no frames from %d on", info.Path, rng.From)
+	}
+	return out, nil
+}

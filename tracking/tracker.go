@@ -1,0 +1,518 @@
+// Package tracking follows the points marked on a tower's legs and braces
+// through every frame of a clip to a small fraction of a pixel, and says when
+// a point can no longer be trusted.
+//
+// Each point's patch in the reference frame is its template. In every frame
+// the template is aligned to the frame by inverse-compositional Gauss-Newton
+// on the zero-mean normalised sum of squared differences with cubic
+// resampling (Baker & Matthews 2004; Pan et al., "Fast, robust and accurate
+// digital image correlation calculation without redundant computations",
+// Experimental Mechanics 53:1277-1289, 2013). Matching always against the
+// reference, never the previous frame, keeps errors from adding up over
+// thousands of frames (no drift), and the normalised criterion ignores
+// flicker. The alignment starts from a constant-velocity prediction; when
+// that does not land cleanly (fast motion, collapse), pyramidal Lucas-Kanade
+// (Bouguet 2000, OpenCV calcOpticalFlowPyrLK) from the previous frame with a
+// forward-backward check gives the start, with pyramid depth chosen from the
+// point's speed, and failing that a normalised cross-correlation search
+// (OpenCV matchTemplate) over a window that widens with speed.
+//
+// Each sample's Quality is the normalised correlation with the reference
+// patch (0..1). A point is lost when the quality falls below
+// Options.MinQuality, or when the frame-to-frame step fails its
+// forward-backward check and no strong match is found; a lost point is only
+// taken up again on a strong match near where it was lost.
+package tracking
+
+import (
+	"errors"
+	"fmt"
+	"image"
+	"math"
+
+	"gocv.io/x/gocv"
+
+	"github.com/failframe/failframe/tracking/marks"
+	"github.com/failframe/failframe/tracking/tracks"
+)
+
+// Options tune the tracker. The zero value is not usable: start from
+// DefaultOptions.
+type Options struct {
+	// Window is the side of the square reference patch in pixels, odd;
+	// default 21. Smaller windows follow thin members without picking up
+	// the background; larger ones average more noise away.
+	Window int
+	// Sigma is the radius in pixels of the Gaussian that weights the
+	// reference patch, so that the marker counts more than background near
+	// the window's edge (which need not move with the point); 0 weights all
+	// pixels alike; default 5.
+	Sigma float64
+	// LKWindow is the side of the Lucas-Kanade window in pixels, odd; default 21.
+	LKWindow int
+	// MaxLevels is the deepest pyramid level Lucas-Kanade may use; default 5.
+	// The depth used for a point grows with its speed.
+	MaxLevels int
+	// MaxIter bounds the iterations of each alignment; default 30.
+	MaxIter int
+	// Epsilon is the step in pixels below which an alignment has converged;
+	// default 0.001.
+	Epsilon float64
+	// MinQuality is the normalised correlation with the reference patch below
+	// which a point is lost; default 0.6.
+	MinQuality float64
+	// QualityDrop is how far below its running quality a point may fall
+	// before the fast path is distrusted and the slower checks run; default 0.15.
+	QualityDrop float64
+	// ReacquireQuality is the correlation a lost point (or one whose
+	// forward-backward check failed) must reach to be taken up; default 0.85.
+	ReacquireQuality float64
+	// MaxFB is the largest forward-backward error in pixels for a
+	// frame-to-frame step to count; default 1.
+	MaxFB float64
+	// SearchRadius is the smallest radius in pixels of the correlation
+	// search; default 16. It widens with the point's speed.
+	SearchRadius int
+	// MaxSearchRadius bounds the search radius; default 128.
+	MaxSearchRadius int
+	// MinTexture is the least texture (smaller structure-matrix eigenvalue
+	// over patch variance and size, 1/px^2) a marked point needs; default 0.002.
+	MinTexture float64
+	// PlainLK switches the reference alignment off: points follow pyramidal
+	// Lucas-Kanade from frame to frame only (full frames, all points in one
+	// call, LKWindow, MaxLevels, MaxIter and LKEpsilon), lost when the
+	// forward-backward error exceeds MaxFB. For comparisons; it drifts.
+	PlainLK bool
+	// LKEpsilon is Lucas-Kanade's stopping step in pixels; default 0.01.
+	LKEpsilon float64
+}
+
+// DefaultOptions returns the tracker's default settings.
+func DefaultOptions() Options {
+	return Options{
+		Window:           21,
+		Sigma:            5,
+		LKWindow:         21,
+		MaxLevels:        5,
+		MaxIter:          30,
+		Epsilon:          0.001,
+		MinQuality:       0.6,
+		QualityDrop:      0.15,
+		ReacquireQuality: 0.85,
+		MaxFB:            1,
+		SearchRadius:     16,
+		MaxSearchRadius:  128,
+		MinTexture:       0.002,
+		LKEpsilon:        0.01,
+	}
+}
+
+func (o Options) check() error {
+	switch {
+	case o.Window < 5 || o.Window%2 == 0:
+		return fmt.Errorf("window %d must be odd and at least 5", o.Window)
+	case o.LKWindow < 5 || o.LKWindow%2 == 0:
+		return fmt.Errorf("Lucas-Kanade window %d must be odd and at least 5", o.LKWindow)
+	case !(o.Sigma >= 0):
+		return fmt.Errorf("weight radius %g must not be negative", o.Sigma)
+	case o.MaxLevels < 0 || o.MaxLevels > 8:
+		return fmt.Errorf("pyramid levels %d must be 0..8", o.MaxLevels)
+	case o.MaxIter < 1:
+		return fmt.Errorf("iterations %d must be at least 1", o.MaxIter)
+	case !(o.Epsilon > 0) || !(o.LKEpsilon > 0):
+		return errors.New("stopping steps must be positive")
+	case !(o.MinQuality > 0 && o.MinQuality < 1) || !(o.ReacquireQuality >= o.MinQuality && o.ReacquireQuality < 1):
+		return fmt.Errorf("qualities must satisfy 0 < min (%g) <= reacquire (%g) < 1", o.MinQuality, o.ReacquireQuality)
+	case !(o.MaxFB > 0):
+		return fmt.Errorf("forward-backward limit %g must be positive", o.MaxFB)
+	case o.SearchRadius < 1 || o.MaxSearchRadius < o.SearchRadius:
+		return fmt.Errorf("search radius %d..%d is not usable", o.SearchRadius, o.MaxSearchRadius)
+	}
+	return nil
+}
+
+// pointState is what the tracker knows about one point.
+type pointState struct {
+	id   string
+	line int
+	tp   *template
+	tmpl gocv.Mat // reference patch for the correlation search
+	// d0x, d0y is the marked position minus the template's integer anchor.
+	d0x, d0y float64
+	// cx, cy is the template centre in the last frame; vx, vy its last step.
+	cx, cy, vx, vy float64
+	// typ is the running quality; 0 before the first frame.
+	typ     float64
+	lost    bool
+	lostFor int
+}
+
+// Tracker follows the marked points frame by frame. It is not safe for
+// concurrent use. Close releases its OpenCV memory.
+type Tracker struct {
+	opt      Options
+	pts      []pointState
+	width    int
+	height   int
+	gray     gocv.Mat
+	prev     gocv.Mat
+	rf       refiner
+	crit     gocv.TermCriteria
+	lkIn     gocv.Mat
+	lkOut    gocv.Mat
+	lkBack   gocv.Mat
+	lkStatus gocv.Mat
+	lkErr    gocv.Mat
+	match    gocv.Mat
+	noMask   gocv.Mat
+}
+
+// New prepares a tracker for the points of m, whose px positions are in the
+// reference frame ref (BGR, BGRA or grey, 8 bits).
+func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
+	if err := opt.check(); err != nil {
+		return nil, fmt.Errorf("tracking: %w", err)
+	}
+	if len(m.Points) == 0 {
+		return nil, errors.New("tracking: the marks name no points")
+	}
+	if ref.Empty() {
+		return nil, errors.New("tracking: empty reference frame")
+	}
+	t := &Tracker{
+		opt:      opt,
+		width:    ref.Cols(),
+		height:   ref.Rows(),
+		gray:     gocv.NewMat(),
+		prev:     gocv.NewMat(),
+		crit:     gocv.NewTermCriteria(gocv.Count|gocv.EPS, opt.MaxIter, opt.LKEpsilon),
+		lkIn:     gocv.NewMat(),
+		lkOut:    gocv.NewMat(),
+		lkBack:   gocv.NewMat(),
+		lkStatus: gocv.NewMat(),
+		lkErr:    gocv.NewMat(),
+		match:    gocv.NewMat(),
+		noMask:   gocv.NewMat(),
+	}
+	if err := toGray(ref, &t.prev); err != nil {
+		t.Close()
+		return nil, fmt.Errorf("tracking: reference frame: %w", err)
+	}
+	refImg, err := view(t.prev)
+	if err != nil {
+		t.Close()
+		return nil, err
+	}
+	if err := m.CheckBounds(t.width, t.height); err != nil {
+		t.Close()
+		return nil, err
+	}
+	for _, p := range m.Points {
+		ax, ay := int(math.Round(p.PX[0])), int(math.Round(p.PX[1]))
+		// The patch plus the gradient border must fit; shrink it near edges.
+		r := opt.Window / 2
+		edge := min(ax, ay, t.width-1-ax, t.height-1-ay) - 3
+		if edge < r {
+			r = edge
+		}
+		if r < 3 {
+			t.Close()
+			return nil, &marks.Error{Line: p.Line, Err: fmt.Errorf("point %s at (%.2f, %.2f) px is too near the edge of the %dx%d frame to track", p.ID, p.PX[0], p.PX[1], t.width, t.height)}
+		}
+		tp := newTemplate(refImg, ax, ay, r, opt.Sigma)
+		if tp.minEig < opt.MinTexture {
+			t.Close()
+			return nil, &marks.Error{Line: p.Line, Err: fmt.Errorf("point %s at (%.2f, %.2f) px has too little texture to track (%.4f < %.4f): put a dot or cross marker there, or mark a more detailed spot", p.ID, p.PX[0], p.PX[1], tp.minEig, opt.MinTexture)}
+		}
+		side := 2*r + 1
+		region := t.prev.Region(image.Rect(ax-r, ay-r, ax-r+side, ay-r+side))
+		tmpl := region.Clone()
+		region.Close()
+		t.pts = append(t.pts, pointState{
+			id: p.ID, line: p.Line, tp: tp, tmpl: tmpl,
+			d0x: p.PX[0] - float64(ax), d0y: p.PX[1] - float64(ay),
+			cx: float64(ax), cy: float64(ay),
+		})
+	}
+	t.rf.ensure(opt.Window / 2)
+	return t, nil
+}
+
+// IDs returns the point ids in marks order, the order of Step's samples.
+func (t *Tracker) IDs() []string {
+	ids := make([]string, len(t.pts))
+	for i, p := range t.pts {
+		ids[i] = p.id
+	}
+	return ids
+}
+
+// Close releases the tracker's OpenCV memory.
+func (t *Tracker) Close() {
+	for i := range t.pts {
+		t.pts[i].tmpl.Close()
+	}
+	for _, m := range []*gocv.Mat{&t.gray, &t.prev, &t.lkIn, &t.lkOut, &t.lkBack, &t.lkStatus, &t.lkErr, &t.match, &t.noMask} {
+		m.Close()
+	}
+}
+
+// toGray converts an 8-bit frame to grey into dst.
+func toGray(img gocv.Mat, dst *gocv.Mat) error {
+	switch img.Type() {
+	case gocv.MatTypeCV8UC3:
+		gocv.CvtColor(img, dst, gocv.ColorBGRToGray)
+	case gocv.MatTypeCV8UC4:
+		gocv.CvtColor(img, dst, gocv.ColorBGRAToGray)
+	case gocv.MatTypeCV8UC1:
+		img.CopyTo(dst)
+	default:
+		return fmt.Errorf("frame type %v is not 8-bit grey, BGR or BGRA", img.Type())
+	}
+	return nil
+}
+
+// view exposes a continuous grey Mat's pixels without copying.
+func view(m gocv.Mat) (grayImage, error) {
+	if !m.IsContinuous() {
+		return grayImage{}, errors.New("tracking: frame memory is not continuous")
+	}
+	pix, err := m.DataPtrUint8()
+	if err != nil {
+		return grayImage{}, fmt.Errorf("tracking: %w", err)
+	}
+	return grayImage{pix: pix, width: m.Cols(), height: m.Rows(), stride: m.Cols()}, nil
+}
+
+// Step tracks the points into the next frame img (same size and kind as the
+// reference) and returns one sample per point, in marks order. frame is the
+// frame's number, used in error messages.
+func (t *Tracker) Step(frame int, img gocv.Mat) ([]tracks.Sample, error) {
+	if img.Cols() != t.width || img.Rows() != t.height {
+		return nil, fmt.Errorf("tracking: frame %d is %dx%d, the reference is %dx%d", frame, img.Cols(), img.Rows(), t.width, t.height)
+	}
+	if err := toGray(img, &t.gray); err != nil {
+		return nil, fmt.Errorf("tracking: frame %d: %w", frame, err)
+	}
+	out := make([]tracks.Sample, len(t.pts))
+	if t.opt.PlainLK {
+		t.stepPlain(out)
+	} else {
+		cur, err := view(t.gray)
+		if err != nil {
+			return nil, err
+		}
+		for i := range t.pts {
+			out[i] = t.stepPoint(&t.pts[i], cur)
+		}
+	}
+	t.gray, t.prev = t.prev, t.gray
+	return out, nil
+}
+
+// sampleOf turns a point's state into a sample.
+func (p *pointState) sample(q float64) tracks.Sample {
+	if p.lost {
+		return tracks.Sample{X: math.NaN(), Y: math.NaN(), Quality: math.Max(0, q), Lost: true}
+	}
+	return tracks.Sample{X: p.cx + p.d0x, Y: p.cy + p.d0y, Quality: math.Max(0, math.Min(1, q))}
+}
+
+// accept moves the point to (x, y) with quality q.
+func (p *pointState) accept(x, y, q float64) {
+	if p.lost {
+		p.vx, p.vy = 0, 0
+	} else {
+		p.vx, p.vy = x-p.cx, y-p.cy
+	}
+	p.cx, p.cy = x, y
+	if p.typ == 0 {
+		p.typ = q
+	} else {
+		p.typ = 0.9*p.typ + 0.1*q
+	}
+	p.lost, p.lostFor = false, 0
+}
+
+// stepPoint tracks one point into cur.
+func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
+	o := &t.opt
+	r := float64(p.tp.r)
+	if p.lost {
+		p.lostFor++
+		// Try to take the point up again: often at first, then now and then.
+		if p.lostFor <= 10 || p.lostFor%10 == 0 {
+			if x, y, q, ok := t.search(p, cur, p.cx, p.cy, o.SearchRadius, o.ReacquireQuality); ok {
+				p.accept(x, y, q)
+				return p.sample(q)
+			}
+		}
+		return p.sample(0)
+	}
+	px, py := p.cx+p.vx, p.cy+p.vy
+	speed := math.Hypot(p.vx, p.vy)
+
+	// Fast path: align the reference patch starting at the prediction.
+	res := t.rf.refine(p.tp, cur, px, py, o.MaxIter, o.Epsilon, r)
+	if res.ok && res.converged && res.zncc >= o.MinQuality &&
+		(p.typ == 0 || res.zncc >= p.typ-o.QualityDrop) &&
+		math.Hypot(res.x-px, res.y-py) <= r/2 {
+		p.accept(res.x, res.y, res.zncc)
+		return p.sample(res.zncc)
+	}
+	best := res.zncc
+
+	// Frame-to-frame Lucas-Kanade with a forward-backward check.
+	lx, ly, fb, lkOK := t.lkStep(p.cx, p.cy, px, py, speed)
+	if lkOK && fb <= o.MaxFB {
+		res2 := t.rf.refine(p.tp, cur, lx, ly, o.MaxIter, o.Epsilon, r)
+		if res2.ok && res2.zncc >= o.MinQuality {
+			p.accept(res2.x, res2.y, res2.zncc)
+			return p.sample(res2.zncc)
+		}
+		best = math.Max(best, res2.zncc)
+	}
+
+	// Correlation search around the prediction, wider for faster points.
+	need := o.MinQuality
+	if !(lkOK && fb <= o.MaxFB) {
+		need = o.ReacquireQuality
+	}
+	rad := min(o.MaxSearchRadius, max(o.SearchRadius, int(math.Ceil(3*speed))))
+	x, y, q, ok := t.search(p, cur, px, py, rad, need)
+	if ok {
+		p.accept(x, y, q)
+		return p.sample(q)
+	}
+	best = math.Max(best, q)
+	p.lost, p.lostFor = true, 0
+	return p.sample(best)
+}
+
+// levelsFor picks the pyramid depth for an expected motion in pixels: the
+// shallowest whose reach, half a window times 2^(L+1)-1 (Bouguet 2000),
+// covers twice the motion.
+func (t *Tracker) levelsFor(motion float64) int {
+	half := float64(t.opt.LKWindow / 2)
+	for l := 0; l < t.opt.MaxLevels; l++ {
+		if half*float64(int(1)<<(l+1)-1) >= 2*motion+2 {
+			return l
+		}
+	}
+	return t.opt.MaxLevels
+}
+
+// lkStep runs pyramidal Lucas-Kanade for one point from (x, y) in the
+// previous frame, starting at the guess (gx, gy), and back again, on a crop
+// around the point. It returns the new position and the forward-backward
+// error.
+func (t *Tracker) lkStep(x, y, gx, gy, speed float64) (nx, ny, fb float64, ok bool) {
+	levels := t.levelsFor(speed + 1)
+	m := float64(t.opt.LKWindow/2+2)*float64(int(1)<<levels) + 4
+	rect := image.Rect(int(math.Floor(math.Min(x, gx)-m)), int(math.Floor(math.Min(y, gy)-m)),
+		int(math.Ceil(math.Max(x, gx)+m)), int(math.Ceil(math.Max(y, gy)+m))).
+		Intersect(image.Rect(0, 0, t.width, t.height))
+	if rect.Dx() < t.opt.LKWindow || rect.Dy() < t.opt.LKWindow {
+		return 0, 0, 0, false
+	}
+	ox, oy := float64(rect.Min.X), float64(rect.Min.Y)
+	a := t.prev.Region(rect)
+	b := t.gray.Region(rect)
+	defer a.Close()
+	defer b.Close()
+	win := image.Pt(t.opt.LKWindow, t.opt.LKWindow)
+	setPoint(&t.lkIn, x-ox, y-oy)
+	setPoint(&t.lkOut, gx-ox, gy-oy)
+	gocv.CalcOpticalFlowPyrLKWithParams(a, b, t.lkIn, t.lkOut, &t.lkStatus, &t.lkErr, win, levels, t.crit, gocv.OptflowUseInitialFlow, 1e-4)
+	if t.lkStatus.GetUCharAt(0, 0) == 0 {
+		return 0, 0, 0, false
+	}
+	fx, fy := getPoint(t.lkOut)
+	setPoint(&t.lkBack, x-ox, y-oy)
+	gocv.CalcOpticalFlowPyrLKWithParams(b, a, t.lkOut, t.lkBack, &t.lkStatus, &t.lkErr, win, levels, t.crit, gocv.OptflowUseInitialFlow, 1e-4)
+	if t.lkStatus.GetUCharAt(0, 0) == 0 {
+		return 0, 0, 0, false
+	}
+	bx, by := getPoint(t.lkBack)
+	return fx + ox, fy + oy, math.Hypot(bx+ox-x, by+oy-y), true
+}
+
+// setPoint makes m a 1x1 two-channel float point holding (x, y).
+func setPoint(m *gocv.Mat, x, y float64) {
+	if m.Rows() != 1 || m.Cols() != 1 || m.Type() != gocv.MatTypeCV32FC2 {
+		m.Close()
+		*m = gocv.NewMatWithSize(1, 1, gocv.MatTypeCV32FC2)
+	}
+	m.SetFloatAt(0, 0, float32(x))
+	m.SetFloatAt(0, 1, float32(y))
+}
+
+func getPoint(m gocv.Mat) (x, y float64) {
+	return float64(m.GetFloatAt(0, 0)), float64(m.GetFloatAt(0, 1))
+}
+
+// search looks for p's reference patch within rad pixels of (x, y) by
+// normalised cross-correlation, aligns it at the best peak and reports it
+// when the aligned correlation reaches need.
+func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, need float64) (nx, ny, q float64, ok bool) {
+	r := p.tp.r
+	cx, cy := int(math.Round(x)), int(math.Round(y))
+	rect := image.Rect(cx-rad-r, cy-rad-r, cx+rad+r+1, cy+rad+r+1).Intersect(image.Rect(0, 0, t.width, t.height))
+	if rect.Dx() <= 2*r+1 || rect.Dy() <= 2*r+1 {
+		return 0, 0, 0, false
+	}
+	region := t.gray.Region(rect)
+	gocv.MatchTemplate(region, p.tmpl, &t.match, gocv.TmCcoeffNormed, t.noMask)
+	region.Close()
+	_, peak, _, loc := gocv.MinMaxLoc(t.match)
+	if float64(peak) < need-0.1 {
+		return 0, 0, float64(peak), false
+	}
+	sx, sy := float64(rect.Min.X+loc.X+r), float64(rect.Min.Y+loc.Y+r)
+	res := t.rf.refine(p.tp, cur, sx, sy, t.opt.MaxIter, t.opt.Epsilon, float64(r))
+	if !res.ok || res.zncc < need {
+		return 0, 0, math.Max(float64(peak), res.zncc), false
+	}
+	return res.x, res.y, res.zncc, true
+}
+
+// stepPlain runs frame-to-frame Lucas-Kanade for all points in one call.
+func (t *Tracker) stepPlain(out []tracks.Sample) {
+	n := len(t.pts)
+	if t.lkIn.Rows() != n || t.lkIn.Type() != gocv.MatTypeCV32FC2 {
+		for _, m := range []*gocv.Mat{&t.lkIn, &t.lkOut, &t.lkBack} {
+			m.Close()
+			*m = gocv.NewMatWithSize(n, 1, gocv.MatTypeCV32FC2)
+		}
+	}
+	for i, p := range t.pts {
+		x, y := p.cx+p.d0x, p.cy+p.d0y
+		t.lkIn.SetFloatAt(i, 0, float32(x))
+		t.lkIn.SetFloatAt(i, 1, float32(y))
+	}
+	win := image.Pt(t.opt.LKWindow, t.opt.LKWindow)
+	gocv.CalcOpticalFlowPyrLKWithParams(t.prev, t.gray, t.lkIn, t.lkOut, &t.lkStatus, &t.lkErr, win, t.opt.MaxLevels, t.crit, 0, 1e-4)
+	st := make([]bool, n)
+	for i := range n {
+		st[i] = t.lkStatus.GetUCharAt(i, 0) != 0
+	}
+	gocv.CalcOpticalFlowPyrLKWithParams(t.gray, t.prev, t.lkOut, t.lkBack, &t.lkStatus, &t.lkErr, win, t.opt.MaxLevels, t.crit, 0, 1e-4)
+	for i := range t.pts {
+		p := &t.pts[i]
+		if p.lost {
+			out[i] = p.sample(0)
+			continue
+		}
+		fx, fy := float64(t.lkOut.GetFloatAt(i, 0)), float64(t.lkOut.GetFloatAt(i, 1))
+		bx, by := float64(t.lkBack.GetFloatAt(i, 0)), float64(t.lkBack.GetFloatAt(i, 1))
+		fb := math.Hypot(bx-float64(t.lkIn.GetFloatAt(i, 0)), by-float64(t.lkIn.GetFloatAt(i, 1)))
+		if !st[i] || t.lkStatus.GetUCharAt(i, 0) == 0 || !(fb <= t.opt.MaxFB) {
+			p.lost = true
+			out[i] = p.sample(0)
+			continue
+		}
+		p.vx, p.vy = fx-p.d0x-p.cx, fy-p.d0y-p.cy
+		p.cx, p.cy = fx-p.d0x, fy-p.d0y
+		out[i] = p.sample(1 - fb/t.opt.MaxFB)
+	}
+}
