@@ -25,6 +25,10 @@ type Tracks struct {
 	// Samples holds one row per frame, one column per point: Samples[i][j] is
 	// point IDs[j] in frame Frames[i].
 	Samples [][]Sample
+	// Ref holds each point's reference position in pixels (the marked px),
+	// in IDs order; nil when not known. Millimetre columns of points.csv are
+	// measured from it.
+	Ref [][2]float64
 }
 
 // Index returns the column of a point id, or -1.
