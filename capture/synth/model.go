@@ -383,14 +383,14 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 	} else {
 		mb := m.members[m.fail]
 		m.span0, m.span1 = 0, 1
-		m.sBreak = 0.5
+		m.sBreak = 0.42 // beside the mid-span sticker, so the gap shows
 		p0, p1 := m.nodes[mb.anchors[0].node].rest, m.nodes[mb.anchors[len(mb.anchors)-1].node].rest
 		axis := p1.sub(p0).unit()
 		switch {
 		case mb.kind == "leg" && s.Bracing == BracingHorizontal:
 			m.mode = ModeLegFullHeight
 			m.sBreak = (math.Floor(float64(n)/2) + 0.5) / float64(n)
-			m.bowDir = right.scale(sign)
+			m.bowDir = right.sub(axis.scale(right.dot(axis))).unit().scale(sign)
 			m.zLo, m.zHi = 0, s.HeightMM
 			lean = m.bowDir
 			m.leanMax, m.dropMax, m.twistC = 22*math.Pi/180, 0.2*s.HeightMM, 12*math.Pi/180
@@ -398,7 +398,7 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 			m.mode = ModeLegBetweenBraces
 			m.span1 = 1 / float64(n)
 			m.sBreak = 0.5 / float64(n)
-			m.bowDir = right.scale(sign)
+			m.bowDir = right.sub(axis.scale(right.dot(axis))).unit().scale(sign)
 			m.zLo, m.zHi = 0, m.levelsZ[1]
 			lean = m.bowDir
 			m.leanMax, m.dropMax, m.twistC = 25*math.Pi/180, 0.5*m.levelsZ[1], 8*math.Pi/180
@@ -406,7 +406,7 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 			m.mode = ModeBraceBuckling
 			if len(mb.anchors) == 3 {
 				m.span1 = mb.anchors[1].s
-				m.sBreak = m.span1 / 2
+				m.sBreak = 0.42 * m.span1
 			}
 			f := mb.face
 			l1, l2 := f, (f+1)%4
@@ -562,7 +562,12 @@ func (m *model) pose(t float64) *pose {
 		}
 		p := nd.rest
 		if nd.leg == failLeg {
-			p = p.add(m.off(float64(nd.level)/float64(m.n), 0, t))
+			sl := float64(nd.level) / float64(m.n)
+			half := 0
+			if sl > m.sBreak {
+				half = 1
+			}
+			p = p.add(m.off(sl, half, t))
 		}
 		ps.nodes[i] = m.transform(p, nd.rest.z, t)
 	}
@@ -607,7 +612,11 @@ func (m *model) pointPos(i int, ps *pose) vec3 {
 	case p.node >= 0:
 		return ps.nodes[p.node]
 	case p.member >= 0:
-		return m.memberPos(p.member, p.s, 0, ps)
+		half := 0
+		if p.member == m.fail && p.s > m.sBreak {
+			half = 1
+		}
+		return m.memberPos(p.member, p.s, half, ps)
 	}
 	// block sticker: same bilinear position on the moved block
 	c := ps.block

@@ -88,13 +88,47 @@ func (c *canvas) segment(a, b barPt, ext0, ext1 float64, tex *barTexture, base [
 		rx, ry := px-a.x, py-a.y
 		along := rx*ex + ry*ey
 		across := rx*nx + ry*ny
-		t := math.Max(0, math.Min(1, along/L))
+		t := along / L
+		if t < 0 {
+			t = 0
+		} else if t > 1 {
+			t = 1
+		}
 		hw := a.hw + (b.hw-a.hw)*t
-		m := math.Min(hw-math.Abs(across), math.Min(along+ext0, L+ext1-along))
-		return m, along, across / hw
+		if across < 0 {
+			across = -across
+		}
+		m := hw - across
+		if e := along + ext0; e < m {
+			m = e
+		}
+		if e := L + ext1 - along; e < m {
+			m = e
+		}
+		return m, along, (rx*nx + ry*ny) / hw
 	}
+	band := math.Max(a.hw, b.hw) + edgeBand + 0.01
 	for py := sy0; py < sy1; py++ {
-		for px := sx0; px < sx1; px++ {
+		// the run of pixels within reach of the segment's band on this row
+		lo, hi := float64(sx0), float64(sx1-1)
+		ry := float64(py) - a.y
+		if math.Abs(nx) > 1e-9 {
+			p, q := (band-ry*ny)/nx, (-band-ry*ny)/nx
+			lo, hi = math.Max(lo, a.x+math.Min(p, q)), math.Min(hi, a.x+math.Max(p, q))
+		} else if math.Abs(ry*ny) > band {
+			continue
+		}
+		if math.Abs(ex) > 1e-9 {
+			p, q := (-ext0-edgeBand-ry*ey)/ex, (L+ext1+edgeBand-ry*ey)/ex
+			lo, hi = math.Max(lo, a.x+math.Min(p, q)), math.Min(hi, a.x+math.Max(p, q))
+		}
+		if lo > hi {
+			continue
+		}
+		for px := int(math.Floor(lo)); px <= int(math.Ceil(hi)); px++ {
+			if px < sx0 || px >= sx1 {
+				continue
+			}
 			m, along, v := margin(float64(px), float64(py))
 			if m <= -edgeBand {
 				continue
