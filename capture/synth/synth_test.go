@@ -62,7 +62,13 @@ func TestProjectionMatchesOpenCV(t *testing.T) {
 		{"face-on", func(s *Scenario) { s.AzimuthDeg = 0 }},
 		{"from behind", func(s *Scenario) { s.AzimuthDeg = 180 }},
 		{"low and oblique", func(s *Scenario) { s.AzimuthDeg = -137; s.CameraHeightMM = 20; s.DistanceMM = 900 }},
-		{"high", func(s *Scenario) { s.AzimuthDeg = 63; s.CameraHeightMM = 420; s.FocalPX = 500; s.Width = 800; s.Height = 600 }},
+		{"high", func(s *Scenario) {
+			s.AzimuthDeg = 63
+			s.CameraHeightMM = 420
+			s.FocalPX = 500
+			s.Width = 800
+			s.Height = 600
+		}},
 	}
 	type payload struct {
 		Rvec [3]float64    `json:"rvec"`
