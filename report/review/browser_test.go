@@ -109,10 +109,11 @@ func rectOf(t *testing.T, ctx context.Context, id string) rect {
 
 func TestReviewPageInChromium(t *testing.T) {
 	dir := t.TempDir()
-	clip := makeClip(t, dir)
-	rep, _ := makeReport(t, dir)
+	const frames = 90
+	sr := makeSynthReview(t, dir, 320, 240, frames)
+	fps := sr.truth.CaptureFPS
 	mk := filepath.Join(dir, "new.marks.yaml")
-	_, base := startServer(t, Config{Clip: clip, Marks: mk, Report: rep, CaptureFPS: clipFPS})
+	srv, base := startServer(t, Config{Clip: sr.clip, Marks: mk, Report: sr.report, CaptureFPS: fps})
 	ctx := newBrowser(t)
 
 	do(t, ctx, "open page", chromedp.Navigate(base))
@@ -129,30 +130,39 @@ func TestReviewPageInChromium(t *testing.T) {
 	waitFrame(t, ctx, 11)
 	do(t, ctx, "left", chromedp.KeyEvent(kb.ArrowLeft))
 	waitFrame(t, ctx, 10)
-	do(t, ctx, "step +100", chromedp.Click(chromedp.CSS(`[data-step="100"]`)))
-	waitFrame(t, ctx, 110)
+	do(t, ctx, "step +10", chromedp.Click(chromedp.CSS(`[data-step="10"]`)))
+	waitFrame(t, ctx, 20)
 	do(t, ctx, "step +100 past the end", chromedp.Click(chromedp.CSS(`[data-step="100"]`)))
-	waitFrame(t, ctx, clipFrames-1)
+	waitFrame(t, ctx, frames-1)
+	do(t, ctx, "page up", chromedp.KeyEvent(kb.PageUp))
+	waitFrame(t, ctx, 0)
 
 	// Jump to the break from the event list; time and load follow.
-	do(t, ctx, "event", chromedp.Click(chromedp.CSS(fmt.Sprintf(`#events li[data-frame="%d"]`, eventBreak))))
-	waitFrame(t, ctx, eventBreak)
-	// 77 frames at 480 fps = 160.42 ms; the load rises 10 g per ms: 1604 g.
-	if got := eval[string](t, ctx, `document.getElementById("timeLabel").textContent`); got != "t = 160.42 ms" {
-		t.Errorf("time label %q, want t = 160.42 ms", got)
+	brk := sr.truth.BreakFrame
+	do(t, ctx, "event", chromedp.Click(chromedp.CSS(fmt.Sprintf(`#events li[data-frame="%d"]`, brk))))
+	waitFrame(t, ctx, brk)
+	tBrk := float64(brk) / fps
+	if got, want := eval[string](t, ctx, `document.getElementById("timeLabel").textContent`), fmt.Sprintf("t = %.2f ms", 1000*tBrk); got != want {
+		t.Errorf("time label %q, want %q", got, want)
 	}
-	if got := eval[string](t, ctx, `document.getElementById("loadLabel").textContent`); got != "load 1604 g" {
-		t.Errorf("load label %q, want load 1604 g", got)
+	g, ok := srv.load.at(tBrk)
+	if !ok {
+		t.Fatalf("no load at the break (%.4f s)", tBrk)
+	}
+	if got, want := eval[string](t, ctx, `document.getElementById("loadLabel").textContent`), fmt.Sprintf("load %.0f g", g); got != want {
+		t.Errorf("load label %q, want %q", got, want)
 	}
 	if n := eval[int](t, ctx, `document.querySelectorAll("#ticks span").length`); n != 3 {
 		t.Errorf("%d event ticks on the scrubber, want 3", n)
 	}
+	do(t, ctx, "next event key", chromedp.KeyEvent("e"))
+	waitFrame(t, ctx, sr.truth.CollapseFrame)
 
 	// Clicking the chart jumps to that time.
 	ch := rectOf(t, ctx, "chart")
-	tEnd := float64(clipFrames-1) / clipFPS
+	tEnd := float64(frames-1) / fps
 	cx := math.Round(ch.Left + 52 + 0.25*(ch.Width-62))
-	wantFrame := int(math.Round((cx - ch.Left - 52) / (ch.Width - 62) * tEnd * clipFPS))
+	wantFrame := int(math.Round((cx - ch.Left - 52) / (ch.Width - 62) * tEnd * fps))
 	do(t, ctx, "chart click", chromedp.MouseClickXY(cx, ch.Top+40))
 	waitFrame(t, ctx, wantFrame)
 
@@ -162,7 +172,7 @@ func TestReviewPageInChromium(t *testing.T) {
 	waitFrame(t, ctx, 30)
 	do(t, ctx, "start marking", chromedp.Click(chromedp.ID("markToggle")))
 	ov := rectOf(t, ctx, "overlay")
-	s := ov.Width / clipW
+	s := ov.Width / float64(sr.truth.Width)
 	if s < 1.5 {
 		t.Fatalf("frame shown at scale %.2f; the test wants it enlarged", s)
 	}
@@ -178,9 +188,22 @@ func TestReviewPageInChromium(t *testing.T) {
 	if n := eval[int](t, ctx, `document.querySelectorAll("#pointTable tbody tr").length`); n != 3 {
 		t.Fatalf("%d points in the table after three clicks", n)
 	}
-	// Name the first point, then join it with the second into a brace.
+
+	// Refine the third point in the loupe (10 loupe px per image px).
+	do(t, ctx, "leave the frame", chromedp.MouseEvent(chromedp.MouseMoved, 5, 5))
+	lp := rectOf(t, ctx, "loupe")
+	lx, ly := math.Round(lp.Left+lp.Width/2+7), math.Round(lp.Top+lp.Height/2-4)
+	do(t, ctx, "loupe click", chromedp.MouseEvent(chromedp.MouseMoved, lx, ly), chromedp.MouseClickXY(lx, ly))
+	want[2][0] += ((lx-lp.Left)*200/lp.Width - 100) / 10
+	want[2][1] += ((ly-lp.Top)*200/lp.Height - 100) / 10
+
+	// Name the first point A1, give the tower block and derive its place.
 	do(t, ctx, "select first", chromedp.MouseClickXY(clicks[0][0], clicks[0][1]))
-	do(t, ctx, "rename", chromedp.Evaluate[chromedp.Void](`(() => { const e = document.getElementById("ptId"); e.value = "A1"; e.dispatchEvent(new Event("change")); })()`))
+	do(t, ctx, "rename and tower", chromedp.Evaluate[chromedp.Void](`(() => {
+		const set = (id, v) => { const e = document.getElementById(id); e.value = v; e.dispatchEvent(new Event("change")); };
+		set("ptId", "A1"); set("twBase", "100"); set("twTop", "60"); set("twHeight", "300"); set("twLevels", "0, 75, 150, 225, 300");
+	})()`), chromedp.Click(chromedp.ID("ptDerive")))
+	// Join it with the second point into a brace.
 	do(t, ctx, "choose two",
 		chromedp.MouseClickXY(clicks[0][0], clicks[0][1], chromedp.ButtonModifiers(chromedp.ModifierShift)),
 		chromedp.MouseClickXY(clicks[1][0], clicks[1][1], chromedp.ButtonModifiers(chromedp.ModifierShift)),
@@ -189,7 +212,7 @@ func TestReviewPageInChromium(t *testing.T) {
 	if n := eval[int](t, ctx, `document.querySelectorAll("#memberList li").length`); n != 1 {
 		t.Fatalf("%d members after joining, want 1; status %q", n, eval[string](t, ctx, `document.getElementById("status").textContent`))
 	}
-	do(t, ctx, "save", chromedp.Click(chromedp.ID("saveMarks")))
+	do(t, ctx, "save", chromedp.KeyEvent("s", chromedp.KeyModifiers(chromedp.ModifierCtrl)))
 	c, cancel := context.WithTimeout(ctx, 20*time.Second)
 	_, err := chromedp.Run(c, chromedp.Poll[chromedp.Void](`document.body.dataset.saved`))
 	cancel()
@@ -201,19 +224,26 @@ func TestReviewPageInChromium(t *testing.T) {
 	if err != nil {
 		t.Fatalf("saved marks do not load: %v", err)
 	}
-	if err := m.CheckBounds(clipW, clipH); err != nil {
+	if err := m.CheckBounds(sr.truth.Width, sr.truth.Height); err != nil {
 		t.Error(err)
 	}
-	if m.ReferenceFrame != 30 || len(m.Points) != 3 {
-		t.Fatalf("saved marks: reference frame %d, %d points; want 30 and 3", m.ReferenceFrame, len(m.Points))
+	if m.ReferenceFrame != 30 || len(m.Points) != 3 || m.CaptureFPS != fps {
+		t.Fatalf("saved marks: reference frame %d, %d points, %g fps; want 30, 3, %g", m.ReferenceFrame, len(m.Points), m.CaptureFPS, fps)
 	}
 	for i, p := range m.Points {
-		if dx, dy := p.PX[0]-want[i][0], p.PX[1]-want[i][1]; math.Hypot(dx, dy) > 0.5 {
-			t.Errorf("point %s at %v, clicked at %v (%.3f px off)", p.ID, p.PX, want[i], math.Hypot(dx, dy))
+		if d := math.Hypot(p.PX[0]-want[i][0], p.PX[1]-want[i][1]); d > 0.5 {
+			t.Errorf("point %s at %v, clicked at %v (%.3f px off)", p.ID, p.PX, want[i], d)
 		}
 	}
-	if m.Points[0].ID != "A1" {
-		t.Errorf("first point named %q, want A1", m.Points[0].ID)
+	a1 := m.Points[0]
+	if a1.ID != "A1" || a1.Leg != "A" || a1.Level == nil || *a1.Level != 1 || a1.PlanMM == nil {
+		t.Fatalf("first point %+v, want A1 on leg A at level 1 with a plan position", a1)
+	}
+	// The page's derived plan position must agree with marks.PlanOf.
+	bare := a1
+	bare.PlanMM = nil
+	if pl, ok := m.PlanOf(bare); !ok || math.Abs(pl[0]-a1.PlanMM[0]) > 1e-3 || math.Abs(pl[1]-a1.PlanMM[1]) > 1e-3 {
+		t.Errorf("page derived plan %v, marks.PlanOf gives %v", *a1.PlanMM, pl)
 	}
 	if len(m.Members) != 1 || m.Members[0].ID != "AB-d1" || m.Members[0].Kind != "brace" ||
 		len(m.Members[0].Points) != 2 || m.Members[0].Points[0] != "A1" || m.Members[0].Points[1] != m.Points[1].ID {
@@ -242,9 +272,8 @@ func TestReviewScreenshots(t *testing.T) {
 		t.Fatal(err)
 	}
 	dir := t.TempDir()
-	clip := makeClip(t, dir)
-	rep, mk := makeReport(t, dir)
-	_, base := startServer(t, Config{Clip: clip, Marks: mk, Report: rep})
+	sr := makeSynthReview(t, dir, 640, 480, 240)
+	srv, base := startServer(t, Config{Clip: sr.clip, Marks: sr.marks, Report: sr.report})
 	ctx := newBrowser(t)
 	shot := func(name string) {
 		t.Helper()
@@ -264,21 +293,25 @@ func TestReviewScreenshots(t *testing.T) {
 	do(t, ctx, "open", chromedp.Navigate(base))
 	waitFrame(t, ctx, 0)
 	do(t, ctx, "labels", chromedp.Click(chromedp.ID("ovLabels")))
-	do(t, ctx, "event", chromedp.Click(chromedp.CSS(fmt.Sprintf(`#events li[data-frame="%d"]`, eventBreak))))
-	waitFrame(t, ctx, eventBreak)
-	shot("review-event.png")
+	brk := sr.truth.BreakFrame
+	do(t, ctx, "event", chromedp.Click(chromedp.CSS(fmt.Sprintf(`#events li[data-frame="%d"]`, brk))))
+	waitFrame(t, ctx, brk)
+	do(t, ctx, "step", chromedp.KeyEvent(kb.ArrowRight), chromedp.KeyEvent(kb.ArrowRight))
+	waitFrame(t, ctx, brk+2)
+	shot("1-after-break.png")
 
 	do(t, ctx, "marking", chromedp.Click(chromedp.ID("markToggle")))
 	waitFrame(t, ctx, 0)
 	ov := rectOf(t, ctx, "overlay")
-	s := ov.Width / clipW
-	x, y := ov.Left+(140.5)*s, ov.Top+(120.5)*s
-	do(t, ctx, "select and hover", chromedp.MouseClickXY(x, y), chromedp.MouseEvent(chromedp.MouseMoved, x+3, y+2))
-	shot("review-marking.png")
+	s := ov.Width / float64(sr.truth.Width)
+	p := srv.analysed.Points[2]
+	x, y := ov.Left+(p.PX[0]+0.5)*s, ov.Top+(p.PX[1]+0.5)*s
+	do(t, ctx, "select and hover", chromedp.MouseClickXY(x, y), chromedp.MouseEvent(chromedp.MouseMoved, x+2, y+1))
+	shot("2-marking.png")
 
 	do(t, ctx, "stop marking", chromedp.Click(chromedp.ID("markToggle")),
-		chromedp.Evaluate[chromedp.Void](`document.getElementById("keysBox").open = true`))
-	do(t, ctx, "collapse", chromedp.Click(chromedp.CSS(`#events li[data-frame="100"]`)))
-	waitFrame(t, ctx, 100)
-	shot("review-collapse-keys.png")
+		chromedp.Evaluate[chromedp.Void](`document.getElementById("markBox").open = false; document.getElementById("eventsBox").open = false; document.getElementById("keysBox").open = true`))
+	do(t, ctx, "collapse", chromedp.KeyEvent(kb.End))
+	waitFrame(t, ctx, sr.truth.Frames-1)
+	shot("3-end-and-keys.png")
 }

@@ -358,7 +358,7 @@ func (s *Server) overlay(n int) overlayJSON {
 	if s.analysed != nil {
 		for _, m := range s.analysed.Members {
 			om := overlayMember{ID: m.ID, Kind: m.Kind, Points: m.Points, First: m.ID == first}
-			if b, ok := s.bow.at(m.ID, row); ok {
+			if b, ok := s.bow.at(m.ID, n); ok {
 				om.BowFrac = &b
 			}
 			om.Color = hexColor(bowColor(om.BowFrac))

@@ -14,6 +14,7 @@ import (
 
 	"gocv.io/x/gocv"
 
+	"github.com/failframe/failframe/capture/synth"
 	"github.com/failframe/failframe/report"
 	"github.com/failframe/failframe/tracking/marks"
 )
@@ -176,4 +177,109 @@ func startServer(t testing.TB, cfg Config) (*Server, string) {
 func hostOf(u string) string {
 	h := strings.TrimPrefix(u, "http://")
 	return strings.TrimSuffix(h, "/")
+}
+
+// synthReview is a synthesized tower clip with a report folder built from
+// the synthesizer's ground truth (what an analysis would find at best).
+type synthReview struct {
+	clip, marks, report string
+	truth               *synth.Truth
+}
+
+// makeSynthReview renders a short clip of the synthesizer's demo tower at
+// the given size and writes a report folder for it: report.json with the
+// true events, points.csv with the true positions of the marked points,
+// members.csv with the true bow, and load.csv lined up in video time.
+func makeSynthReview(t testing.TB, dir string, w, h, frames int) synthReview {
+	t.Helper()
+	s := synth.Default()
+	s.Width, s.Height, s.FocalPX = w, h, s.FocalPX*float64(w)/float64(s.Width)
+	s.Frames = frames
+	s.OnsetFrame, s.BreakFrame, s.CollapseFrame = frames*4/10, frames*6/10, frames*7/10
+	s.SkipMP4 = true
+	clipDir := filepath.Join(dir, "clip")
+	tr, err := synth.Write(s, clipDir, nil)
+	if err != nil {
+		t.Fatalf("synth: %v", err)
+	}
+	sr := synthReview{clip: filepath.Join(clipDir, "tower.avi"), marks: filepath.Join(clipDir, "marks.yaml"),
+		report: filepath.Join(dir, "report"), truth: tr}
+	if err := os.MkdirAll(sr.report, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	m, err := marks.Load(sr.marks)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fps := tr.CaptureFPS
+
+	var pts strings.Builder
+	pts.WriteString("frame,time_s,point,x_px,y_px,x_mm,y_mm,quality,lost\n")
+	for i := 0; i < tr.Frames; i++ {
+		for _, p := range m.Points {
+			tp, ok := tr.Point(p.ID)
+			if !ok {
+				t.Fatalf("truth lacks point %s", p.ID)
+			}
+			fmt.Fprintf(&pts, "%d,%.6f,%s,%.3f,%.3f,,,0.9,0\n", i, float64(i)/fps, p.ID, tp.PX[i][0], tp.PX[i][1])
+		}
+	}
+	write(t, filepath.Join(sr.report, "points.csv"), pts.String())
+
+	var mem strings.Builder
+	mem.WriteString("frame,time_s,member,kind,bow_mm,bow_pct,strain_pct,rotation_deg\n")
+	for i := 0; i < tr.Frames; i++ {
+		for _, tm := range tr.Members {
+			if len(tm.BowMM) <= i || tm.LengthMM <= 0 {
+				continue
+			}
+			fmt.Fprintf(&mem, "%d,%.6f,%s,%s,%.4f,%.4f,,\n", i, float64(i)/fps, tm.ID, tm.Kind, tm.BowMM[i], 100*tm.BowMM[i]/tm.LengthMM)
+		}
+	}
+	write(t, filepath.Join(sr.report, "members.csv"), mem.String())
+
+	// The synthesizer's log is in logger time (ms); video = log + offset.
+	raw, err := os.ReadFile(filepath.Join(clipDir, "load.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ld strings.Builder
+	ld.WriteString("log_time_s,video_time_s,frame,load_g\n")
+	for _, line := range strings.Split(string(raw), "\n")[1:] {
+		var ms, g float64
+		if _, err := fmt.Sscanf(line, "%g,%g", &ms, &g); err != nil {
+			continue
+		}
+		v := ms/1000 + tr.LoadOffsetS
+		fmt.Fprintf(&ld, "%.4f,%.5f,%d,%.1f\n", ms/1000, v, int(math.Round(v*fps)), g)
+	}
+	write(t, filepath.Join(sr.report, "load.csv"), ld.String())
+
+	f := func(v float64) *float64 { return &v }
+	ev := func(kind, member string, frame int, g float64, detail string) report.Event {
+		e := report.Event{Kind: kind, Member: member, Frame: frame, TimeS: float64(frame) / fps, Detail: detail}
+		if g > 0 {
+			e.LoadG = f(g)
+		}
+		return e
+	}
+	res := report.Result{
+		Version: report.ResultVersion, Tool: "failframe test", CaptureFPS: fps, CaptureFPSFrom: "marks",
+		Clip:        report.ClipFacts{Path: sr.clip, Width: w, Height: h, FrameCount: frames, LastFrame: frames - 1},
+		FirstMember: tr.FirstMember, FailureMode: tr.FailureMode,
+		Account: "The long diagonal " + tr.FirstMember + " bowed out and snapped first; the legs held until the tower folded.",
+		Events: []report.Event{
+			ev("onset", tr.FirstMember, tr.OnsetFrame, tr.LoadAtOnsetG, "mid-span moves sideways"),
+			ev("break", tr.FirstMember, tr.BreakFrame, tr.LoadAtBreakG, "bow jumps, member snaps"),
+			ev("collapse", "", tr.CollapseFrame, 0, "the whole tower moves"),
+		},
+		PeakLoadG: f(tr.PeakLoadG), MassG: f(tr.MassG), Efficiency: f(tr.Efficiency),
+		Alignment: &report.Alignment{Method: "auto", OffsetS: tr.LoadOffsetS, UncertaintyS: tr.LoadPeriodS},
+	}
+	data, err := json.MarshalIndent(res, "", "  ")
+	if err != nil {
+		t.Fatal(err)
+	}
+	write(t, filepath.Join(sr.report, report.ResultFile), string(data))
+	return sr
 }

@@ -57,20 +57,25 @@ func mix(a, b color.RGBA, t float64) color.RGBA {
 
 func hexColor(c color.RGBA) string { return fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B) }
 
-// bowTable holds each member's bow fraction per tracks row: the largest
-// sideways offset of an interior point from the line through the member's
-// end points, relative to that offset in the first row (the reference
-// frame), over the member's reference length. Members with only two points
-// have no bow.
+// bowTable holds each member's bow fraction (sideways bow over length) per
+// frame, from the report's members.csv when it has one, else computed from
+// the tracks (see newBowTable).
 type bowTable struct {
-	byID map[string][]float64
+	// first is the frame of index 0 in each slice.
+	first int
+	byID  map[string][]float64
 }
 
+// newBowTable computes bow fractions from tracks: the largest sideways offset
+// of an interior point from the line through the member's end points,
+// relative to that offset in the first row (the reference frame), over the
+// member's reference length. Members with only two points have no bow.
 func newBowTable(m *marks.File, tr *tracks.Tracks) *bowTable {
-	bt := &bowTable{byID: map[string][]float64{}}
 	if tr.Len() == 0 {
-		return bt
+		return &bowTable{byID: map[string][]float64{}}
 	}
+	first, last := tr.Frames[0], tr.Frames[tr.Len()-1]
+	bt := &bowTable{first: first, byID: map[string][]float64{}}
 	for _, mb := range m.Members {
 		if len(mb.Points) < 3 {
 			continue
@@ -105,8 +110,11 @@ func newBowTable(m *marks.File, tr *tracks.Tracks) *bowTable {
 		if !(refLen > 0) {
 			continue
 		}
-		vals := make([]float64, tr.Len())
-		for row := range vals {
+		vals := make([]float64, last-first+1)
+		for i := range vals {
+			vals[i] = math.NaN()
+		}
+		for row := 0; row < tr.Len(); row++ {
 			cur, _ := offsets(row)
 			best := math.NaN()
 			for k := range cur {
@@ -115,23 +123,24 @@ func newBowTable(m *marks.File, tr *tracks.Tracks) *bowTable {
 					best = d
 				}
 			}
-			vals[row] = best / refLen
+			vals[tr.Frames[row]-first] = best / refLen
 		}
 		bt.byID[mb.ID] = vals
 	}
 	return bt
 }
 
-// at returns a member's bow fraction in a tracks row.
-func (bt *bowTable) at(id string, row int) (float64, bool) {
+// at returns a member's bow fraction in a frame.
+func (bt *bowTable) at(id string, frame int) (float64, bool) {
 	if bt == nil {
 		return 0, false
 	}
 	v, ok := bt.byID[id]
-	if !ok || row < 0 || row >= len(v) || math.IsNaN(v[row]) {
+	i := frame - bt.first
+	if !ok || i < 0 || i >= len(v) || math.IsNaN(v[i]) {
 		return 0, false
 	}
-	return v[row], true
+	return v[i], true
 }
 
 // drawStill draws the overlays of a frame onto img as the page shows them.

@@ -200,7 +200,7 @@ func (s *Server) openReport(dir string) error {
 		return fmt.Errorf("open report %s: %w", dir, err)
 	}
 	s.reportFS = root
-	res, err := readResult(dir)
+	res, err := report.ReadResult(dir)
 	if err != nil && !errors.Is(err, fs.ErrNotExist) {
 		return err
 	}
@@ -210,7 +210,13 @@ func (s *Server) openReport(dir string) error {
 		return err
 	}
 	s.tracks = tr
-	if tr != nil && s.analysed != nil {
+	bt, err := readMemberBow(filepath.Join(dir, "members.csv"))
+	switch {
+	case err == nil:
+		s.bow = bt
+	case !errors.Is(err, fs.ErrNotExist):
+		return err
+	case tr != nil && s.analysed != nil:
 		s.bow = newBowTable(s.analysed, tr)
 	}
 	ld, err := readLoad(filepath.Join(dir, "load.csv"), res)
@@ -219,23 +225,6 @@ func (s *Server) openReport(dir string) error {
 	}
 	s.load = ld
 	return nil
-}
-
-// readResult reads report.json from a report folder.
-func readResult(dir string) (*report.Result, error) {
-	path := filepath.Join(dir, report.ResultFile)
-	data, err := os.ReadFile(path)
-	if err != nil {
-		return nil, fmt.Errorf("read report %s: %w", path, err)
-	}
-	var r report.Result
-	if err := json.Unmarshal(data, &r); err != nil {
-		return nil, fmt.Errorf("read report %s: %w", path, err)
-	}
-	if r.Version != report.ResultVersion {
-		return nil, fmt.Errorf("read report %s: version %d, this program reads version %d", path, r.Version, report.ResultVersion)
-	}
-	return &r, nil
 }
 
 // Close releases the clip and the report folder.
