@@ -79,7 +79,10 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 	} else if rng.To >= 0 {
 		total = rng.To - rng.From + 1
 	}
-	out := &tracks.Tracks{IDs: tr.IDs()}
+	out := &tracks.Tracks{IDs: tr.IDs(), Ref: make([][2]float64, len(m.Points))}
+	for i, p := range m.Points {
+		out.Ref[i] = p.PX
+	}
 	if total > 0 {
 		out.Frames = make([]int, 0, total)
 		out.Samples = make([][]tracks.Sample, 0, total)
