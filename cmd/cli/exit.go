@@ -5,6 +5,7 @@ import (
 	"io/fs"
 
 	"github.com/failframe/failframe/capture"
+	"github.com/failframe/failframe/report/records"
 	"github.com/failframe/failframe/tracking/marks"
 )
 
@@ -57,6 +58,8 @@ func exitCode(err error) int {
 		frameErr *capture.FrameError
 		clipErr  *capture.ClipError
 		marksErr *marks.Error
+		recErr   *records.Error
+		integErr *records.IntegrityError
 	)
 	switch {
 	case err == nil:
@@ -66,6 +69,7 @@ func exitCode(err error) int {
 	case errors.Is(err, errCancelled):
 		return ExitCancelled
 	case errors.As(err, &inErr), errors.As(err, &frameErr), errors.As(err, &clipErr), errors.As(err, &marksErr),
+		errors.As(err, &recErr), errors.As(err, &integErr),
 		errors.Is(err, fs.ErrNotExist), errors.Is(err, fs.ErrPermission):
 		return ExitBadInput
 	}

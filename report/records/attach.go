@@ -182,7 +182,7 @@ func (s *Store) Attach(buildID, dir string) (*AttachResult, error) {
 		return nil, err
 	} else if t != nil {
 		if t.BuildID != buildID {
-			return nil, &Error{Path: dir, Err: fmt.Errorf("%w: this report is already attached to build %q as test %d", ErrDuplicate, t.BuildID, t.Seq)}
+			return nil, &Error{Path: dir, Err: kinded(ErrDuplicate, "this report is already attached to build %q as test %d", t.BuildID, t.Seq)}
 		}
 		return &AttachResult{Test: t, Created: false}, nil
 	}
@@ -245,7 +245,7 @@ func (s *Store) Attach(buildID, dir string) (*AttachResult, error) {
 			return err
 		} else if old != nil {
 			if old.BuildID != buildID {
-				return &Error{Path: dir, Err: fmt.Errorf("%w: this report is already attached to build %q as test %d", ErrDuplicate, old.BuildID, old.Seq)}
+				return &Error{Path: dir, Err: kinded(ErrDuplicate, "this report is already attached to build %q as test %d", old.BuildID, old.Seq)}
 			}
 			out.Test, out.Created, out.Warnings = old, false, nil
 			return nil

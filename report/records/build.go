@@ -67,7 +67,7 @@ func ValidID(id string) bool { return idPattern.MatchString(id) }
 // every field, returning an *Error naming the first bad one.
 func (b *Build) Normalize() error {
 	bad := func(field, format string, a ...any) error {
-		return &Error{BuildID: b.ID, Field: field, Err: fmt.Errorf("%w: "+format, append([]any{ErrInvalid}, a...)...)}
+		return &Error{BuildID: b.ID, Field: field, Err: kinded(ErrInvalid, format, a...)}
 	}
 	b.ID = strings.TrimSpace(b.ID)
 	if !ValidID(b.ID) {
@@ -153,7 +153,7 @@ func insertBuild(tx *sql.Tx, b *Build) error {
 		return err
 	}
 	if n > 0 {
-		return &Error{BuildID: b.ID, Err: fmt.Errorf("%w: a build with this id is already recorded", ErrDuplicate)}
+		return &Error{BuildID: b.ID, Err: kinded(ErrDuplicate, "a build with this id is already recorded; choose another id")}
 	}
 	if _, err := tx.Exec(`INSERT INTO builds(id, name, date, mass_g, height_mm, base_mm, top_mm, bracing, glue, notes, created_at, updated_at)
 		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
@@ -303,7 +303,7 @@ func (s *Store) Edit(id string, fn func(b *Build) error) (*Build, error) {
 			return err
 		}
 		if b.ID != id {
-			return &Error{BuildID: id, Field: "id", Err: fmt.Errorf("%w: the id of a build cannot change", ErrInvalid)}
+			return &Error{BuildID: id, Field: "id", Err: kinded(ErrInvalid, "the id of a build cannot change")}
 		}
 		if err := b.Normalize(); err != nil {
 			return err

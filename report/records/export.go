@@ -205,7 +205,7 @@ func (s *Store) Import(file string) (*Build, error) {
 	}
 	// Refuse early (before copying objects) when the id is taken.
 	if _, err := s.Get(b.ID); err == nil {
-		return nil, &Error{Path: file, BuildID: b.ID, Err: fmt.Errorf("%w: a build with this id is already recorded", ErrDuplicate)}
+		return nil, &Error{Path: file, BuildID: b.ID, Err: kinded(ErrDuplicate, "a build with this id is already recorded")}
 	}
 	for _, t := range a.Tests {
 		for _, f := range t.Files {
@@ -233,7 +233,7 @@ func (s *Store) Import(file string) (*Build, error) {
 			if old, err := testBySum(tx, t.ReportSHA256); err != nil {
 				return err
 			} else if old != nil {
-				return &Error{Path: file, Err: fmt.Errorf("%w: test %d's report is already attached to build %q as test %d", ErrDuplicate, t.Seq, old.BuildID, old.Seq)}
+				return &Error{Path: file, Err: kinded(ErrDuplicate, "test %d's report is already attached to build %q as test %d", t.Seq, old.BuildID, old.Seq)}
 			}
 			if err := insertTest(tx, t); err != nil {
 				return err

@@ -34,7 +34,7 @@ func (s *Store) migrate(ctx context.Context, target int) error {
 				return fmt.Errorf("read schema version: %w", err)
 			}
 			if v > len(migrations) {
-				return &Error{Path: s.path, Err: fmt.Errorf("%w: schema version %d is newer than this failframe knows (%d); use a newer failframe", ErrInvalid, v, len(migrations))}
+				return &Error{Path: s.path, Err: kinded(ErrInvalid, "schema version %d is newer than this failframe knows (%d); use a newer failframe", v, len(migrations))}
 			}
 			if v >= target {
 				done = true

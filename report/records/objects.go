@@ -124,7 +124,7 @@ func syncDir(dir string) {
 // OpenObject opens the stored object with the SHA-256 hex name.
 func (s *Store) OpenObject(sum string) (*os.File, error) {
 	if !hashPattern.MatchString(sum) {
-		return nil, &Error{Err: fmt.Errorf("%w: %q is not a SHA-256 hex digest", ErrInvalid, sum)}
+		return nil, &Error{Err: kinded(ErrInvalid, "%q is not a SHA-256 hex digest", sum)}
 	}
 	return os.Open(s.objectPath(sum))
 }

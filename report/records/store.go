@@ -82,7 +82,7 @@ func openAt(path string, target int) (*Store, error) {
 		return nil, fmt.Errorf("records: create folder for %s: %w", path, err)
 	}
 	if fi, err := os.Stat(abs); err == nil && fi.IsDir() {
-		return nil, &Error{Path: path, Err: fmt.Errorf("%w: is a folder, not a database file", ErrInvalid)}
+		return nil, &Error{Path: path, Err: kinded(ErrInvalid, "is a folder, not a database file")}
 	}
 	db, err := sql.Open("sqlite", dsn(abs))
 	if err != nil {
@@ -199,3 +199,18 @@ func (e *Error) Error() string {
 
 // Unwrap returns the underlying problem.
 func (e *Error) Unwrap() error { return e.Err }
+
+// kindError is a message that matches a sentinel error with errors.Is
+// without repeating the sentinel's text.
+type kindError struct {
+	kind error
+	msg  string
+}
+
+func (e *kindError) Error() string        { return e.msg }
+func (e *kindError) Is(target error) bool { return target == e.kind }
+
+// kinded returns a formatted error that errors.Is matches to kind.
+func kinded(kind error, format string, a ...any) error {
+	return &kindError{kind: kind, msg: fmt.Sprintf(format, a...)}
+}
