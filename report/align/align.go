@@ -100,6 +100,11 @@ func FindDrop(t, g []float64) (Drop, error) {
 		held = math.Max(held, g[i])
 	}
 	d.StartT = d.SteepT - (held-gs)/bestRate
+	if g[best]-g[best+1] > 0.5*fall && held-g[best] < 0.1*fall {
+		// Most of the fall happened between two samples: it began somewhere
+		// in that interval, so take its middle (error at most half a period).
+		d.StartT = d.SteepT
+	}
 	if d.StartT < t[p] {
 		d.StartT = t[p]
 	}
@@ -147,33 +152,158 @@ func Sync(frame int, videoS, logS, periodS, framePeriodS float64) Result {
 }
 
 // Auto aligns by matching the load's collapse drop to the video's collapse
-// and refining by cross-correlation; t and g are the log, periodS its
-// sampling period.
+// and checking the match by cross-correlating the load's fall rate with the
+// rise of motion energy (a disagreement widens the uncertainty); t and g are the log, periodS
+// its sampling period.
+//
+// The video's collapse instant is where the motion energy starts to climb:
+// a baseline-then-ramp (hinge) fit to the energy near the collapse event
+// (or near the energy's steepest rise when no event is given), so a late
+// or early event does not shift the match. The load's drop starts where the
+// steepest fall's tangent meets the load held before it.
 func Auto(t, g []float64, periodS float64, v Video) (Result, error) {
 	d, err := FindDrop(t, g)
 	if err != nil {
 		return Result{}, err
 	}
-	collapse, from := v.CollapseS, "the collapse event"
-	if math.IsNaN(collapse) {
+	rough, from := v.CollapseS, "the collapse event"
+	if math.IsNaN(rough) {
 		k := steepestRise(v, periodS)
 		if k < 0 {
 			return Result{}, errors.New("align: the video shows no collapse to match the load drop to")
 		}
-		collapse, from = v.TimesS[k], "the steepest rise of motion energy"
+		rough, from = v.TimesS[k], "the steepest rise of motion energy"
 	}
-	coarse := collapse - d.StartT
-	res := Result{Method: MethodAuto, OffsetS: coarse, Drop: &d,
+	collapse := rough
+	how := from
+	if on, ok := EnergyOnset(v, rough); ok {
+		collapse = on
+		how = fmt.Sprintf("the start of the motion-energy climb near %s (%.4f s)", from, rough)
+	}
+	off := collapse - d.StartT
+	res := Result{Method: MethodAuto, OffsetS: off, Drop: &d,
 		UncertaintyS: math.Max(periodS, v.FramePeriodS)}
-	refined, corr, ok := refine(t, g, d, periodS, v, coarse)
-	if ok && corr >= 0.3 {
-		res.OffsetS = refined
-		res.UncertaintyS = math.Max(res.UncertaintyS, math.Abs(refined-coarse))
-		res.Detail = fmt.Sprintf("load drop from %.0f g starting at logger time %.4f s matched to %s at %.4f s (offset %.4f s), refined by cross-correlating the load's fall rate with the rise of motion energy (correlation %.2f)", d.PeakG, d.StartT, from, collapse, coarse, corr)
-	} else {
-		res.Detail = fmt.Sprintf("load drop from %.0f g starting at logger time %.4f s matched to %s at %.4f s; cross-correlation not used (correlation %.2f)", d.PeakG, d.StartT, from, collapse, corr)
+	res.Detail = fmt.Sprintf("load drop from %.0f g starting at logger time %.4f s matched to %s at %.4f s", d.PeakG, d.StartT, how, collapse)
+	if xc, corr, ok := refine(t, g, d, periodS, v, off); ok && corr >= 0.3 {
+		// The cross-correlation is a check: it leans late when the energy
+		// climbs gradually, so it widens the uncertainty instead of moving
+		// the offset.
+		diff := xc - off
+		if math.Abs(diff) <= periodS {
+			res.Detail += fmt.Sprintf("; cross-correlating the load's fall rate with the rise of motion energy agrees within %.4f s (correlation %.2f)", math.Abs(diff), corr)
+		} else {
+			res.UncertaintyS = math.Max(res.UncertaintyS, math.Abs(diff)/2)
+			res.Detail += fmt.Sprintf("; cross-correlating the load's fall rate with the rise of motion energy gives %.4f s (correlation %.2f), %.4f s away", xc, corr, math.Abs(diff))
+		}
 	}
 	return res, nil
+}
+
+// EnergyOnset returns the video time where the motion energy starts to
+// climb near rough: the knee of a least-squares fit of a flat baseline
+// followed by a straight ramp, over a window from before rough up to where
+// the energy has made most of its climb. ok is false when there is no climb.
+func EnergyOnset(v Video, rough float64) (float64, bool) {
+	n := len(v.Energy)
+	if n != len(v.TimesS) || n < 8 || !(v.FramePeriodS > 0) {
+		return 0, false
+	}
+	k0 := sort.SearchFloat64s(v.TimesS, rough)
+	if k0 >= n {
+		k0 = n - 1
+	}
+	frames := func(s float64) int { return int(math.Ceil(s / v.FramePeriodS)) }
+	wb := max(20, frames(0.08))
+	wa := max(10, frames(0.1))
+	lo := max(0, k0-wb)
+	hi := min(n-1, k0+wa)
+	// Baseline from the first half of the window before rough.
+	var base []float64
+	for k := lo; k < max(lo+3, k0-wb/2) && k < n; k++ {
+		if !math.IsNaN(v.Energy[k]) {
+			base = append(base, v.Energy[k])
+		}
+	}
+	if len(base) < 3 {
+		return 0, false
+	}
+	b0 := medianOf(base)
+	peak := b0
+	for k := lo; k <= hi; k++ {
+		if !math.IsNaN(v.Energy[k]) {
+			peak = math.Max(peak, v.Energy[k])
+		}
+	}
+	if peak <= b0 {
+		return 0, false
+	}
+	// The end of the fit: where the energy first stays above 60 % of its climb.
+	level := b0 + 0.6*(peak-b0)
+	end := -1
+	for k := lo; k+2 <= hi; k++ {
+		if v.Energy[k] >= level && v.Energy[k+1] >= level && v.Energy[k+2] >= level {
+			end = k
+			break
+		}
+	}
+	if end < 0 {
+		end = hi
+	}
+	if end-lo < 6 {
+		return 0, false
+	}
+	bestJ, bestSSE := -1, math.Inf(1)
+	for j := lo + 2; j < end; j++ {
+		// Fit E = b + a*max(0, t - t_j) by least squares.
+		var sx, sy, sxx, sxy float64
+		m := 0
+		for k := lo; k <= end; k++ {
+			e := v.Energy[k]
+			if math.IsNaN(e) {
+				continue
+			}
+			x := math.Max(0, v.TimesS[k]-v.TimesS[j])
+			sx += x
+			sy += e
+			sxx += x * x
+			sxy += x * e
+			m++
+		}
+		den := float64(m)*sxx - sx*sx
+		if m < 4 || den <= 0 {
+			continue
+		}
+		a := (float64(m)*sxy - sx*sy) / den
+		b := (sy - a*sx) / float64(m)
+		if a <= 0 {
+			continue
+		}
+		sse := 0.0
+		for k := lo; k <= end; k++ {
+			e := v.Energy[k]
+			if math.IsNaN(e) {
+				continue
+			}
+			r := e - b - a*math.Max(0, v.TimesS[k]-v.TimesS[j])
+			sse += r * r
+		}
+		if sse < bestSSE {
+			bestJ, bestSSE = j, sse
+		}
+	}
+	if bestJ < 0 {
+		return 0, false
+	}
+	return v.TimesS[bestJ], true
+}
+
+func medianOf(v []float64) float64 {
+	c := append([]float64(nil), v...)
+	sort.Float64s(c)
+	if len(c)%2 == 1 {
+		return c[len(c)/2]
+	}
+	return (c[len(c)/2-1] + c[len(c)/2]) / 2
 }
 
 // riseSeries returns, per energy sample, how much the energy rises over the

@@ -14,6 +14,9 @@ type scene struct {
 	periodS, phaseS, offsetS, collapseLog, fallS, noiseG float64
 	fps, energyTau                                       float64
 	seed                                                 int64
+	// ramp makes the motion energy climb steadily (an accelerating
+	// collapse) instead of jumping.
+	ramp bool
 }
 
 func (s scene) build() (t, g []float64, v Video) {
@@ -39,7 +42,11 @@ func (s scene) build() (t, g []float64, v Video) {
 		vt := start + float64(k)/s.fps
 		e := 0.4 + 0.05*rng.NormFloat64()
 		if dt := vt - (s.collapseLog + s.offsetS); dt > 0 {
-			e += 12 * (1 - math.Exp(-dt/s.energyTau))
+			if s.ramp {
+				e += 60 * dt
+			} else {
+				e += 12 * (1 - math.Exp(-dt/s.energyTau))
+			}
 		}
 		v.TimesS = append(v.TimesS, vt)
 		v.Energy = append(v.Energy, e)
@@ -59,6 +66,8 @@ func TestAutoRecoversOffset(t *testing.T) {
 		{name: "80 Hz slow fall, energy only", s: scene{periodS: 0.0125, phaseS: 0.001, offsetS: 3.1, collapseLog: 12.04, fallS: 0.06, noiseG: 10, fps: 1000, energyTau: 0.03, seed: 2}},
 		{name: "1 kHz log, 240 fps video", s: scene{periodS: 0.001, phaseS: 0.0002, offsetS: 0.52, collapseLog: 6.5, fallS: 0.02, noiseG: 3, fps: 240, energyTau: 0.02, seed: 3}},
 		{name: "collapse event a few frames late", s: scene{periodS: 0.01, phaseS: 0.006, offsetS: -1.0, collapseLog: 8.0, fallS: 0.03, noiseG: 8, fps: 960, energyTau: 0.015, seed: 4}, useEvent: true, collapseErr: 0.006},
+		{name: "accelerating collapse, event 18 ms late", s: scene{periodS: 0.0125, phaseS: 0.004, offsetS: -34.959, collapseLog: 35.3675, fallS: 0.009, noiseG: 2.5, fps: 960, ramp: true, seed: 6}, useEvent: true, collapseErr: 0.018},
+		{name: "accelerating collapse, event 10 ms early", s: scene{periodS: 0.01, phaseS: 0.002, offsetS: 2.5, collapseLog: 20, fallS: 0.02, noiseG: 5, fps: 500, ramp: true, seed: 7}, useEvent: true, collapseErr: -0.010},
 		{name: "noisy 50 Hz", s: scene{periodS: 0.02, phaseS: 0.013, offsetS: 20, collapseLog: 30, fallS: 0.01, noiseG: 40, fps: 500, energyTau: 0.01, seed: 5}},
 	}
 	for _, tt := range tests {

@@ -400,7 +400,7 @@ func Parse(path string, r io.Reader, opt Options) (*Log, []Warning, error) {
 		warns = append(warns, Warning{Msg: fmt.Sprintf("peak load %.4g g is less than the structure's mass %.4g g; check the load unit (%s)", peak, opt.MassG, unitWhy)})
 	}
 
-	log.PeriodS = medianStep(log.TimesS)
+	log.PeriodS = typicalStep(log.TimesS)
 	for i := 1; i < len(log.TimesS); i++ {
 		if gap := log.TimesS[i] - log.TimesS[i-1]; gap > 10*log.PeriodS {
 			warns = append(warns, Warning{Line: log.Lines[i], Msg: fmt.Sprintf("gap of %.4g s in the log (%.0f sample periods)", gap, gap/log.PeriodS)})
@@ -725,6 +725,24 @@ func medianStep(ts []float64) float64 {
 	}
 	sort.Float64s(d)
 	return d[len(d)/2]
+}
+
+// typicalStep is the mean of the steps within half a median step of the
+// median: loggers that stamp whole milliseconds alternate 12 and 13 ms at
+// 80 Hz, and the mean of those is the true 12.5 ms; gaps are left out.
+func typicalStep(ts []float64) float64 {
+	med := medianStep(ts)
+	sum, n := 0.0, 0
+	for i := 1; i < len(ts); i++ {
+		if d := ts[i] - ts[i-1]; d >= 0.5*med && d <= 1.5*med {
+			sum += d
+			n++
+		}
+	}
+	if n == 0 {
+		return med
+	}
+	return sum / float64(n)
 }
 
 func minMax(v []float64) (lo, hi float64) {

@@ -274,6 +274,22 @@ func TestParseDuplicateAndSingleBackwardsSkipped(t *testing.T) {
 	}
 }
 
+func TestPeriodOfWholeMillisecondStamps(t *testing.T) {
+	// An 80 Hz logger stamping whole milliseconds writes 0, 12, 25, 37, 50, ...
+	var b strings.Builder
+	b.WriteString("time_ms,load_g\n")
+	for k := 0; k < 400; k++ {
+		b.WriteString(itoa(int(float64(k)*12.5)) + ",1\n")
+	}
+	log, _, err := Parse("p.csv", strings.NewReader(b.String()), Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(log.PeriodS-0.0125) > 1e-4 {
+		t.Errorf("period %g s, want 0.0125 s", log.PeriodS)
+	}
+}
+
 func TestAt(t *testing.T) {
 	log := &Log{TimesS: []float64{0, 1, 2}, LoadG: []float64{0, 10, 30}}
 	for _, tt := range []struct {

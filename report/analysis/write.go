@@ -1,0 +1,485 @@
+package analysis
+
+import (
+	"bufio"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"gocv.io/x/gocv"
+
+	"github.com/failframe/failframe/capture"
+	"github.com/failframe/failframe/report"
+	"github.com/failframe/failframe/report/align"
+	"github.com/failframe/failframe/report/evidence"
+	"github.com/failframe/failframe/report/loadlog"
+	"github.com/failframe/failframe/report/plots"
+	"github.com/failframe/failframe/tracking/marks"
+	"github.com/failframe/failframe/tracking/measure"
+	"github.com/failframe/failframe/tracking/tracks"
+)
+
+// writer fills the temporary report folder.
+type writer struct {
+	dir    string
+	res    *report.Result
+	m      *marks.File
+	tr     *tracks.Tracks
+	meas   *measure.Result
+	diag   *measure.Diagnosis
+	tb     capture.Timebase
+	log    *loadlog.Log
+	al     *align.Result
+	energy []float64
+	files  []string
+}
+
+// num formats a CSV number: empty for NaN, otherwise at most 6 decimals.
+func num(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return ""
+	}
+	return strconv.FormatFloat(round(v, 6), 'f', -1, 64)
+}
+
+func at(x []float64, i int) float64 {
+	if i < len(x) {
+		return x[i]
+	}
+	return math.NaN()
+}
+
+// csv writes one CSV file through fill.
+func (w *writer) csv(name string, fill func(b *bufio.Writer) error) error {
+	f, err := os.Create(filepath.Join(w.dir, name))
+	if err != nil {
+		return fmt.Errorf("write %s: %w", name, err)
+	}
+	b := bufio.NewWriter(f)
+	err = fill(b)
+	if err == nil {
+		err = b.Flush()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err != nil {
+		return fmt.Errorf("write %s: %w", name, err)
+	}
+	w.files = append(w.files, name)
+	return nil
+}
+
+func (w *writer) csvs() error {
+	mmpp := w.meas.MMPerPx
+	if err := w.csv("points.csv", func(b *bufio.Writer) error {
+		return writePointsCSV(b, w.tr, w.m, w.tb.CaptureFPS, mmpp)
+	}); err != nil {
+		return err
+	}
+	if err := w.csv("levels.csv", func(b *bufio.Writer) error {
+		fmt.Fprintln(b, "frame,time_s,level,twist_deg,sway_mm,settle_mm")
+		for i, f := range w.meas.Frames {
+			for _, l := range w.meas.Levels {
+				tw := at(l.TwistDeg, i)
+				if !l.Observable {
+					tw = math.NaN()
+				}
+				fmt.Fprintf(b, "%d,%s,%d,%s,%s,%s\n", f, num(w.tb.Time(f)), l.Level, num(tw), num(at(l.SwayMM, i)), num(at(l.SettleMM, i)))
+			}
+		}
+		return nil
+	}); err != nil {
+		return err
+	}
+	if err := w.csv("members.csv", func(b *bufio.Writer) error {
+		fmt.Fprintln(b, "frame,time_s,member,kind,bow_mm,bow_pct,strain_pct,rotation_deg")
+		for i, f := range w.meas.Frames {
+			for _, m := range w.meas.Members {
+				fmt.Fprintf(b, "%d,%s,%s,%s,%s,%s,%s,%s\n", f, num(w.tb.Time(f)), m.ID, m.Kind, num(at(m.BowMM, i)), num(100*at(m.BowFrac, i)), num(at(m.StrainPct, i)), num(at(m.RotationDeg, i)))
+			}
+		}
+		return nil
+	}); err != nil {
+		return err
+	}
+	if err := w.csv("energy.csv", func(b *bufio.Writer) error {
+		fmt.Fprintln(b, "frame,time_s,energy")
+		for i, f := range w.tr.Frames {
+			fmt.Fprintf(b, "%d,%s,%s\n", f, num(w.tb.Time(f)), num(w.energy[i]))
+		}
+		return nil
+	}); err != nil {
+		return err
+	}
+	if w.log == nil {
+		return nil
+	}
+	return w.csv("load.csv", func(b *bufio.Writer) error {
+		fmt.Fprintln(b, "log_time_s,video_time_s,frame,load_g")
+		first, last := w.tr.Frames[0], w.tr.Frames[w.tr.Len()-1]
+		for i, t := range w.log.TimesS {
+			vt, frame := "", ""
+			if w.al != nil {
+				v := t + w.al.OffsetS
+				vt = num(v)
+				if f := w.tb.Frame(v); f >= first && f <= last {
+					frame = strconv.Itoa(f)
+				}
+			}
+			fmt.Fprintf(b, "%s,%s,%s,%s\n", num(t), vt, frame, num(w.log.LoadG[i]))
+		}
+		return nil
+	})
+}
+
+// plot saves a chart into plots/ and records it as a figure.
+func (w *writer) plot(c plots.Chart, name, caption string) error {
+	files, err := c.Save(filepath.Join(w.dir, "plots"), name)
+	if err != nil {
+		return fmt.Errorf("write report: %w", err)
+	}
+	for _, f := range files {
+		w.files = append(w.files, "plots/"+f)
+	}
+	w.res.Figures = append(w.res.Figures, report.Figure{File: "plots/" + files[0], SVG: "plots/" + files[1], Kind: "plot", Caption: caption})
+	return nil
+}
+
+func (w *writer) eventMarks(kinds ...string) []plots.Mark {
+	var out []plots.Mark
+	for _, e := range w.res.Events {
+		ok := len(kinds) == 0
+		for _, k := range kinds {
+			ok = ok || e.Kind == k
+		}
+		if !ok {
+			continue
+		}
+		label := strings.ReplaceAll(e.Kind, "_", " ")
+		if e.Member != "" && e.Kind != "lost" {
+			label += " " + e.Member
+		}
+		strong := e.Member != "" && e.Member == w.res.FirstMember || e.Kind == "collapse"
+		out = append(out, plots.Mark{X: e.TimeS, Label: label, Strong: strong})
+	}
+	return out
+}
+
+func (w *writer) frameTimes() []float64 {
+	t := make([]float64, len(w.meas.Frames))
+	for i, f := range w.meas.Frames {
+		t[i] = w.tb.Time(f)
+	}
+	return t
+}
+
+func (w *writer) plots() error {
+	times := w.frameTimes()
+	evMarks := w.eventMarks("onset", "break", "twist_onset", "collapse")
+	if w.log != nil {
+		off, xl := 0.0, "logger time (s)"
+		if w.al != nil {
+			off, xl = w.al.OffsetS, "real time in the clip (s)"
+		}
+		var all plots.Series
+		all.Name = "load"
+		var clip plots.Series
+		clip.Name = "load"
+		t0, t1 := times[0], times[len(times)-1]
+		for i, t := range w.log.TimesS {
+			x := t + off
+			all.X = append(all.X, x)
+			all.Y = append(all.Y, w.log.LoadG[i])
+			if x >= t0-0.05*(t1-t0) && x <= t1+0.05*(t1-t0) {
+				clip.X = append(clip.X, x)
+				clip.Y = append(clip.Y, w.log.LoadG[i])
+			}
+		}
+		var testMarks []plots.Mark
+		if w.al != nil {
+			testMarks = []plots.Mark{{X: t0, Label: "clip starts"}, {X: t1, Label: "clip ends"}}
+		}
+		if err := w.plot(plots.Chart{Title: "Load over the whole test", XLabel: xl, YLabel: "load (g)", Series: []plots.Series{all}, Marks: testMarks},
+			"load_test", "Load over the whole test as logged"+alignedNote(w.al)); err != nil {
+			return err
+		}
+		if w.al != nil {
+			if err := w.plot(plots.Chart{Title: "Load during the clip", XLabel: xl, YLabel: "load (g)", Series: []plots.Series{{Name: "load", X: clip.X, Y: clip.Y, Dots: true}}, Marks: evMarks},
+				"load", "Load during the clip with the failure events marked (red: the first member and the collapse)"); err != nil {
+				return err
+			}
+		}
+	}
+	var tw, sw []plots.Series
+	for _, l := range w.meas.Levels {
+		name := fmt.Sprintf("level %d", l.Level)
+		if l.Observable {
+			tw = append(tw, plots.Series{Name: name, X: times, Y: l.TwistDeg})
+		}
+		sw = append(sw, plots.Series{Name: name, X: times, Y: l.SwayMM})
+	}
+	if len(tw) > 0 {
+		if err := w.plot(plots.Chart{Title: "Twist per level", XLabel: "real time (s)", YLabel: "twist (degrees, counter-clockwise from above)", Series: tw, Marks: evMarks},
+			"twist", "Twist of each level whose twist this camera can see"); err != nil {
+			return err
+		}
+	}
+	if len(sw) > 0 {
+		if err := w.plot(plots.Chart{Title: "Sway per level", XLabel: "real time (s)", YLabel: "sway (mm, to the image right)", Series: sw, Marks: evMarks},
+			"sway", "Sideways sway of each level's centre"); err != nil {
+			return err
+		}
+	}
+	var bow []plots.Series
+	for _, m := range w.meas.Members {
+		if m.Kind != marks.KindBrace && m.ID != w.res.FirstMember {
+			continue
+		}
+		y := make([]float64, len(m.BowFrac))
+		for i, v := range m.BowFrac {
+			y[i] = 100 * v
+		}
+		bow = append(bow, plots.Series{Name: m.ID, X: times, Y: y})
+	}
+	if len(bow) > 0 {
+		if err := w.plot(plots.Chart{Title: "Bow of each brace", XLabel: "real time (s)", YLabel: "bow (% of length)", Series: bow, Marks: w.eventMarks("onset", "break")},
+			"bow", "Bow of each brace (sideways deflection of its middle as a share of its length) with member onsets and breaks marked"); err != nil {
+			return err
+		}
+	}
+	if w.al != nil {
+		top := -1
+		for i, l := range w.meas.Levels {
+			if l.Observable {
+				top = i
+			}
+		}
+		if top >= 0 {
+			end := collapseRow(w.meas, w.diag)
+			var s plots.Series
+			s.Name = fmt.Sprintf("level %d", w.meas.Levels[top].Level)
+			for i := 0; i < end && i < len(times); i++ {
+				g, ok := w.log.At(times[i] - w.al.OffsetS)
+				if !ok {
+					continue
+				}
+				s.X = append(s.X, at(w.meas.Levels[top].TwistDeg, i))
+				s.Y = append(s.Y, g)
+			}
+			if len(s.X) > 1 {
+				if err := w.plot(plots.Chart{Title: "Load against top twist", XLabel: "twist (degrees)", YLabel: "load (g)", Series: []plots.Series{s}},
+					"load_twist", "Load against the twist of the highest level whose twist is seen, up to the collapse"); err != nil {
+					return err
+				}
+			}
+		}
+	}
+	return w.legShape()
+}
+
+func alignedNote(al *align.Result) string {
+	if al == nil {
+		return " (not lined up with the clip)"
+	}
+	return fmt.Sprintf(" on the clip's time scale (offset %.4f s, %s)", al.OffsetS, al.Method)
+}
+
+// legShape plots the deflected shape of the leg that bent most at a few instants.
+func (w *writer) legShape() error {
+	best, bestV := -1, 0.0
+	for i, l := range w.meas.Legs {
+		if l.Row < 0 || l.Row >= len(l.DeflectionMM) {
+			continue
+		}
+		v, _ := maxAbs(l.DeflectionMM[l.Row], len(l.DeflectionMM[l.Row]))
+		if best < 0 || v > bestV {
+			best, bestV = i, v
+		}
+	}
+	if best < 0 {
+		for i, l := range w.meas.Legs {
+			if len(l.DeflectionMM) > 0 {
+				best = i
+				break
+			}
+		}
+	}
+	if best < 0 {
+		return nil
+	}
+	leg := w.meas.Legs[best]
+	rows := []int{0}
+	labels := []string{"reference"}
+	for _, e := range w.diag.Events {
+		if e.Kind == "onset" || e.Kind == "break" || e.Kind == "collapse" {
+			r := e.Row
+			if e.Kind != "onset" && r > 0 {
+				r-- // just before
+			}
+			rows = append(rows, r)
+			labels = append(labels, fmt.Sprintf("before %s %s", strings.ReplaceAll(e.Kind, "_", " "), e.Member))
+			if e.Kind == "onset" {
+				labels[len(labels)-1] = "onset " + e.Member
+			}
+		}
+	}
+	if leg.Row >= 0 {
+		rows = append(rows, leg.Row)
+		labels = append(labels, "largest bend")
+	}
+	var ss []plots.Series
+	seen := map[int]bool{}
+	for k, r := range rows {
+		if r < 0 || r >= len(leg.DeflectionMM) || seen[r] || len(ss) >= 5 {
+			continue
+		}
+		seen[r] = true
+		ss = append(ss, plots.Series{Name: fmt.Sprintf("%s (frame %d)", strings.TrimSpace(labels[k]), w.meas.Frames[r]), X: leg.DeflectionMM[r], Y: leg.HeightsMM, Dots: true})
+	}
+	return w.plot(plots.Chart{Title: "Deflected shape of leg " + leg.Leg, XLabel: "deflection from the straight line (mm)", YLabel: "height (mm)", Series: ss, HeightCM: 11},
+		"leg_shape", fmt.Sprintf("Deflected shape of leg %s at a few instants (%s)", leg.Leg, leg.Note))
+}
+
+// eventFrame returns the frame of the first event of a kind (for member, or any member when ""), -1 when none.
+func (w *writer) eventFrame(kind, member string) int {
+	for _, e := range w.res.Events {
+		if e.Kind == kind && (member == "" || e.Member == member) {
+			return e.Frame
+		}
+	}
+	return -1
+}
+
+func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
+	first, last := w.tr.Frames[0], w.tr.Frames[w.tr.Len()-1]
+	fm := w.res.FirstMember
+	onset := w.eventFrame("onset", fm)
+	if onset < 0 {
+		onset = w.eventFrame("twist_onset", "")
+	}
+	brk := w.eventFrame("break", fm)
+	col := w.eventFrame("collapse", "")
+	var shots []evidence.Shot
+	ref := w.m.ReferenceFrame
+	if ref < first || ref > last {
+		ref = first
+	}
+	shots = append(shots, evidence.Shot{Frame: ref, File: "reference.png", Caption: fmt.Sprintf("Reference frame %d: the marked points and members", ref)})
+	if onset >= 0 {
+		shots = append(shots, evidence.Shot{Frame: onset, File: "onset.png", Caption: fmt.Sprintf("Frame %d: onset of %s", onset, nonEmpty(fm, "the twist"))})
+	}
+	if brk >= 0 {
+		k := 3
+		if onset >= 0 && brk-onset < 2*k {
+			k = max(1, (brk-onset)/2)
+		}
+		if pre := brk - k; pre > onset && pre >= first {
+			shots = append(shots, evidence.Shot{Frame: pre, File: "before_break.png", Caption: fmt.Sprintf("Frame %d: just before %s breaks", pre, fm)})
+		}
+		shots = append(shots, evidence.Shot{Frame: brk, File: "break.png", Caption: fmt.Sprintf("Frame %d: %s breaks", brk, fm)})
+	}
+	if col >= 0 {
+		shots = append(shots, evidence.Shot{Frame: col, File: "collapse.png", Caption: fmt.Sprintf("Frame %d: the tower collapses", col)})
+	}
+	// The failure window: from the first event to a little after the collapse.
+	ws, we := -1, -1
+	for _, e := range w.res.Events {
+		if e.Kind == "lost" {
+			continue
+		}
+		if ws < 0 || e.Frame < ws {
+			ws = e.Frame
+		}
+		if e.Frame > we {
+			we = e.Frame
+		}
+	}
+	if ws < 0 {
+		ws, we = first+(last-first)*2/3, last
+	}
+	pad := max(5, (we-ws)/10)
+	ws, we = max(first, ws-pad), min(last, we+pad)
+	var sheet []int
+	n := min(12, we-ws+1)
+	for i := 0; i < n; i++ {
+		sheet = append(sheet, ws+int(math.Round(float64(i)*float64(we-ws)/math.Max(1, float64(n-1)))))
+	}
+	cs := ws
+	if we-cs > 400 {
+		cs = we - 400
+	}
+	eventAt := map[int]string{}
+	for _, e := range w.res.Events {
+		label := strings.ReplaceAll(e.Kind, "_", " ")
+		if e.Member != "" && e.Kind != "lost" {
+			label += " " + e.Member
+		}
+		if eventAt[e.Frame] == "" {
+			eventAt[e.Frame] = label
+		}
+	}
+	stamp := func(f int) string {
+		s := fmt.Sprintf("frame %d  t = %.4f s", f, w.tb.Time(f))
+		if w.al != nil {
+			if g, ok := w.log.At(w.tb.Time(f) - w.al.OffsetS); ok {
+				s += fmt.Sprintf("  load = %.0f g", g)
+			}
+		}
+		if l := eventAt[f]; l != "" {
+			s += "  " + l
+		}
+		return s
+	}
+	bow := map[string][]float64{}
+	for _, m := range w.meas.Members {
+		bow[m.ID] = m.BowFrac
+	}
+	ov := &evidence.Overlay{Marks: w.m, Tracks: w.tr, BowFrac: bow, FirstMember: fm}
+	req := evidence.Request{Shots: shots, Sheet: sheet, ClipFrom: cs, ClipTo: we, ClipFPS: 30, Stamp: stamp, Have: have}
+	out, err := evidence.Render(src, ov, req, filepath.Join(w.dir, "evidence"))
+	for _, o := range out {
+		w.files = append(w.files, o.File)
+		if o.Caption != "" {
+			w.res.Figures = append(w.res.Figures, report.Figure{File: o.File, Kind: "evidence", Caption: o.Caption})
+		}
+	}
+	return err
+}
+
+func nonEmpty(s, alt string) string {
+	if s == "" {
+		return alt
+	}
+	return s
+}
+
+// writePointsCSV writes points.csv with the columns of the tracks contract:
+// frame,time_s,point,x_px,y_px,x_mm,y_mm,quality,lost (mm relative to the
+// marked reference position, y positive down; empty without a scale).
+func writePointsCSV(b *bufio.Writer, tr *tracks.Tracks, m *marks.File, fps, mmPerPx float64) error {
+	fmt.Fprintln(b, "frame,time_s,point,x_px,y_px,x_mm,y_mm,quality,lost")
+	ref := make([][2]float64, len(tr.IDs))
+	for j, id := range tr.IDs {
+		ref[j] = [2]float64{math.NaN(), math.NaN()}
+		if p, ok := m.Point(id); ok {
+			ref[j] = p.PX
+		}
+	}
+	for i, f := range tr.Frames {
+		for j, id := range tr.IDs {
+			s := tr.Samples[i][j]
+			xm, ym := math.NaN(), math.NaN()
+			if mmPerPx > 0 && !s.Lost {
+				xm, ym = (s.X-ref[j][0])*mmPerPx, (s.Y-ref[j][1])*mmPerPx
+			}
+			if _, err := fmt.Fprintf(b, "%d,%s,%s,%s,%s,%s,%s,%s,%t\n", f, num(float64(f)/fps), id, num(s.X), num(s.Y), num(xm), num(ym), num(s.Quality), s.Lost); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
