@@ -70,9 +70,6 @@ func openAt(path string, target int) (*Store, error) {
 	if path == "" {
 		return nil, errors.New("records: empty database path")
 	}
-	if strings.ContainsAny(path, "?#") {
-		return nil, fmt.Errorf("records: database path %s: must not contain '?' or '#'", path)
-	}
 	abs, err := filepath.Abs(path)
 	if err != nil {
 		return nil, fmt.Errorf("records: database path %s: %w", path, err)
@@ -107,7 +104,9 @@ func dsn(abs string) string {
 	q.Set("_foreign_keys", "1")
 	q.Set("_synchronous", "FULL")
 	q.Set("_txlock", "immediate")
-	return "file:" + abs + "?" + q.Encode()
+	// SQLite decodes %HH in URI file names and stops the name at '?' or '#'.
+	name := strings.NewReplacer("%", "%25", "?", "%3f", "#", "%23").Replace(abs)
+	return "file:" + name + "?" + q.Encode()
 }
 
 // Path returns the database file's absolute path.

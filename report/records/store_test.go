@@ -3,6 +3,7 @@ package records
 import (
 	"errors"
 	"math"
+	"os"
 	"path/filepath"
 	"reflect"
 	"strings"
@@ -242,6 +243,32 @@ func TestMigrateFromSchema1(t *testing.T) {
 	}
 	if got, _ := s.List("club"); len(got) != 1 || got[0].ID != "OLD1" {
 		t.Errorf("List(club) = %+v", got)
+	}
+}
+
+// TestOddDatabaseNames checks that characters with a meaning in SQLite URIs
+// ('%', '?', '#') and spaces reach the file system unchanged.
+func TestOddDatabaseNames(t *testing.T) {
+	dir := t.TempDir()
+	for _, name := range []string{"a%20b.db", "what?.db", "no#1 ü.db"} {
+		p := filepath.Join(dir, "sub dir", name)
+		s, err := Open(p)
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		if _, err := s.Add(sampleBuild("T1")); err != nil {
+			t.Fatal(err)
+		}
+		s.Close()
+		if fi, err := os.Stat(p); err != nil || fi.Size() == 0 {
+			t.Errorf("%s: database not at the given path: %v", name, err)
+		}
+	}
+	ents, _ := os.ReadDir(filepath.Join(dir, "sub dir"))
+	for _, e := range ents {
+		if strings.HasPrefix(e.Name(), "a b") || e.Name() == "what" {
+			t.Errorf("stray file %q: the name was decoded or cut", e.Name())
+		}
 	}
 }
 
