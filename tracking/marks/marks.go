@@ -38,7 +38,13 @@ type File struct {
 	Points []Point `yaml:"points"`
 	// Members join points into legs, braces and the loading block.
 	Members []Member `yaml:"members,omitempty"`
+
+	// keyLines holds the YAML line of each top-level key (nil when built in code).
+	keyLines map[string]int
 }
+
+// line returns the YAML line of a top-level key, or 0.
+func (f *File) line(key string) int { return f.keyLines[key] }
 
 // Camera holds the camera's placement relative to the tower.
 type Camera struct {

@@ -1,6 +1,7 @@
 package marks
 
 import (
+	"errors"
 	"fmt"
 	"math"
 )
@@ -9,10 +10,23 @@ import (
 // known points, a usable scale, legs A-D, levels inside the tower block.
 func (f *File) Validate() error {
 	if f.ReferenceFrame < 0 {
-		return &Error{Err: fmt.Errorf("reference_frame %d is negative", f.ReferenceFrame)}
+		return &Error{Line: f.line("reference_frame"), Err: fmt.Errorf("reference_frame %d is negative", f.ReferenceFrame)}
 	}
 	if f.CaptureFPS < 0 || f.CaptureFPS > 1e6 || math.IsNaN(f.CaptureFPS) {
-		return &Error{Err: fmt.Errorf("capture_fps %g is not a usable rate (0 < fps <= 1000000)", f.CaptureFPS)}
+		return &Error{Line: f.line("capture_fps"), Err: fmt.Errorf("capture_fps %g is not a usable rate (0 < fps <= 1000000)", f.CaptureFPS)}
+	}
+	if c := f.Camera; c != nil && (math.IsNaN(c.AzimuthDeg) || math.IsInf(c.AzimuthDeg, 0)) {
+		return &Error{Line: f.line("camera"), Err: errors.New("camera.azimuth_deg is not a number")}
+	}
+	if t := f.Tower; t != nil {
+		if !(t.BaseMM > 0) || !(t.TopMM >= 0) || !(t.HeightMM > 0) || math.IsInf(t.BaseMM+t.TopMM+t.HeightMM, 0) {
+			return &Error{Line: f.line("tower"), Err: fmt.Errorf("tower: base_mm %g and height_mm %g must be positive lengths, top_mm %g not negative", t.BaseMM, t.HeightMM, t.TopMM)}
+		}
+		for i, z := range t.LevelsMM {
+			if math.IsNaN(z) || z < 0 || z > t.HeightMM || (i > 0 && z <= t.LevelsMM[i-1]) {
+				return &Error{Line: f.line("tower"), Err: fmt.Errorf("tower: levels_mm must rise from 0 to height_mm %g; level %d is %g", t.HeightMM, i, z)}
+			}
+		}
 	}
 	ids := make(map[string]int, len(f.Points))
 	for _, p := range f.Points {
@@ -62,13 +76,13 @@ func (f *File) Validate() error {
 		a, okA := f.Point(s.From)
 		b, okB := f.Point(s.To)
 		if !okA || !okB {
-			return &Error{Err: fmt.Errorf("scale: unknown point id (from %q, to %q)", s.From, s.To)}
+			return &Error{Line: f.line("scale"), Err: fmt.Errorf("scale: unknown point id (from %q, to %q)", s.From, s.To)}
 		}
 		if !(s.MM > 0) || math.IsInf(s.MM, 0) {
-			return &Error{Err: fmt.Errorf("scale: mm %g must be a positive length", s.MM)}
+			return &Error{Line: f.line("scale"), Err: fmt.Errorf("scale: mm %g must be a positive length (zero length)", s.MM)}
 		}
 		if math.Hypot(a.PX[0]-b.PX[0], a.PX[1]-b.PX[1]) < 1 {
-			return &Error{Line: b.Line, Err: fmt.Errorf("scale: points %s and %s are less than 1 px apart (zero length)", s.From, s.To)}
+			return &Error{Line: f.line("scale"), Err: fmt.Errorf("scale: points %s and %s are less than 1 px apart (zero length)", s.From, s.To)}
 		}
 	}
 	return nil
