@@ -166,6 +166,42 @@ func TestReviewPageInChromium(t *testing.T) {
 	do(t, ctx, "chart click", chromedp.MouseClickXY(cx, ch.Top+40))
 	waitFrame(t, ctx, wantFrame)
 
+	// Overlays: the tracked points and members are drawn, and the toggles hide them.
+	const inked = `(() => { const c = document.getElementById("overlay");
+	  const d = c.getContext("2d").getImageData(0, 0, c.width, c.height).data;
+	  let n = 0; for (let k = 3; k < d.length; k += 4) if (d[k] > 0) n++; return n; })()`
+	on := eval[int](t, ctx, inked)
+	do(t, ctx, "hide overlays", chromedp.Click(chromedp.ID("ovPoints")), chromedp.Click(chromedp.ID("ovMembers")))
+	if off := eval[int](t, ctx, inked); on < 500 || off != 0 {
+		t.Errorf("overlay pixels: %d with overlays on, %d with them off", on, off)
+	}
+	do(t, ctx, "show overlays", chromedp.Click(chromedp.ID("ovPoints")), chromedp.Click(chromedp.ID("ovMembers")))
+
+	// A still of this frame goes to the report's evidence folder.
+	do(t, ctx, "still", chromedp.Click(chromedp.ID("stillBtn")))
+	c, cancel := context.WithTimeout(ctx, 20*time.Second)
+	_, err := chromedp.Run(c, chromedp.Poll[chromedp.Void](`document.getElementById("status").textContent.startsWith("still saved")`))
+	cancel()
+	if err != nil {
+		t.Errorf("still not saved: %v", err)
+	} else if _, err := os.Stat(filepath.Join(sr.report, "evidence", fmt.Sprintf("review-frame-%06d.png", wantFrame))); err != nil {
+		t.Errorf("still file: %v", err)
+	}
+
+	// Play at 50 times slower than real time, then pause.
+	start := wantFrame
+	do(t, ctx, "play", chromedp.SetValue(chromedp.ID("slowdown"), "50"), chromedp.KeyEvent(" "))
+	c, cancel = context.WithTimeout(ctx, 20*time.Second)
+	_, err = chromedp.Run(c, chromedp.Poll[chromedp.Void](fmt.Sprintf(`Number(document.getElementById("frameImg").dataset.frame) >= %d`, start+5)))
+	cancel()
+	if err != nil {
+		t.Errorf("playing did not advance 5 frames: %v", err)
+	}
+	do(t, ctx, "pause", chromedp.KeyEvent(" "))
+	if got := eval[string](t, ctx, `document.getElementById("playBtn").textContent`); got != "Play" {
+		t.Errorf("after pausing the button says %q", got)
+	}
+
 	// Marking: three points placed by clicking on frame 30.
 	do(t, ctx, "go to 30", chromedp.SetValue(chromedp.ID("frameNo"), "30"),
 		chromedp.Evaluate[chromedp.Void](`document.getElementById("frameNo").dispatchEvent(new Event("change"))`))
@@ -213,8 +249,8 @@ func TestReviewPageInChromium(t *testing.T) {
 		t.Fatalf("%d members after joining, want 1; status %q", n, eval[string](t, ctx, `document.getElementById("status").textContent`))
 	}
 	do(t, ctx, "save", chromedp.KeyEvent("s", chromedp.KeyModifiers(chromedp.ModifierCtrl)))
-	c, cancel := context.WithTimeout(ctx, 20*time.Second)
-	_, err := chromedp.Run(c, chromedp.Poll[chromedp.Void](`document.body.dataset.saved`))
+	c, cancel = context.WithTimeout(ctx, 20*time.Second)
+	_, err = chromedp.Run(c, chromedp.Poll[chromedp.Void](`document.body.dataset.saved`))
 	cancel()
 	if err != nil {
 		t.Fatalf("marks not saved: %v; status %q", err, eval[string](t, ctx, `document.getElementById("status").textContent`))

@@ -27,6 +27,7 @@ type frameStore struct {
 	path   string
 	frames int // frame count; reduced if the clip turns out shorter
 	next   int // the frame the next src.Read returns
+	cur    int // the frame in mat, -1 for none
 	mat    gocv.Mat
 
 	cache    *list.List // of *cacheEntry, most recent first
@@ -55,6 +56,7 @@ func newFrameStore(src capture.Source, maxBytes int) *frameStore {
 		path:     src.Info().Path,
 		frames:   src.Info().FrameCount,
 		mat:      gocv.NewMat(),
+		cur:      -1,
 		cache:    list.New(),
 		index:    map[cacheKey]*list.Element{},
 		maxBytes: maxBytes,
@@ -81,6 +83,10 @@ func (s *frameStore) decodeLocked(n int) error {
 	if n < 0 || n >= s.frames {
 		return fmt.Errorf("%s frame %d: %w (clip has %d frames)", s.path, n, errOutOfRange, s.frames)
 	}
+	if n == s.cur {
+		return nil
+	}
+	s.cur = -1
 	if n < s.next || n > s.next+forwardGap {
 		if err := s.src.Seek(n); err != nil {
 			s.next = -1 << 30 // unknown position: seek next time
@@ -89,24 +95,26 @@ func (s *frameStore) decodeLocked(n int) error {
 		s.seeks++
 		s.next = n
 	}
+	got := -1
 	for s.next <= n {
-		got, err := s.src.Read(&s.mat)
+		var err error
+		got, err = s.src.Read(&s.mat)
 		s.reads++
-		if errors.Is(err, io.EOF) {
+		if errors.Is(err, io.EOF) || errors.Is(err, capture.ErrShortClip) {
 			// The container over-stated the frame count.
-			s.frames = s.next
+			s.frames = max(got, 1)
 			s.next = -1 << 30
-			return fmt.Errorf("%s frame %d: %w (clip ends at %d frames)", s.path, n, errOutOfRange, s.frames)
-		}
-		if err != nil {
-			s.next = got + 1
-			if got == n {
-				return err
-			}
-			continue
+			return fmt.Errorf("%s frame %d: %w (the clip ends at %d frames)", s.path, n, errOutOfRange, s.frames)
 		}
 		s.next = got + 1
+		if err != nil && got == n {
+			return err
+		}
 	}
+	if got != n {
+		return &capture.FrameError{Path: s.path, Frame: n, Err: errors.New("frame could not be decoded")}
+	}
+	s.cur = n
 	return nil
 }
 

@@ -111,7 +111,7 @@ func (s *Server) handleFrame(w http.ResponseWriter, r *http.Request) {
 func (s *Server) frameError(w http.ResponseWriter, err error) {
 	var fe *capture.FrameError
 	switch {
-	case errors.Is(err, errOutOfRange):
+	case errors.Is(err, errOutOfRange), errors.Is(err, capture.ErrShortClip):
 		httpError(w, http.StatusNotFound, "%v", err)
 	case errors.As(err, &fe):
 		httpError(w, http.StatusUnprocessableEntity, "%v", err)

@@ -477,3 +477,46 @@ func TestLoadThinKeepsPeaks(t *testing.T) {
 		t.Errorf("peak after thinning %g, want 5000", peak)
 	}
 }
+
+func TestServerTruncatedClip(t *testing.T) {
+	dir := t.TempDir()
+	clip := makeClip(t, dir)
+	st, err := os.Stat(clip)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Cut the file at 60 %: the container still lists every frame.
+	if err := os.Truncate(clip, st.Size()*6/10); err != nil {
+		t.Fatal(err)
+	}
+	s, err := New(Config{Clip: clip, CaptureFPS: clipFPS})
+	if err != nil {
+		// Refusing a damaged clip with a clear error is also acceptable.
+		if !strings.Contains(err.Error(), clip) {
+			t.Fatalf("error %v does not name the clip", err)
+		}
+		return
+	}
+	s.Close()
+	_, base := startServer(t, Config{Clip: clip, CaptureFPS: clipFPS})
+	for _, n := range []int{clipFrames - 1, clipFrames - 2, 90, 10, clipFrames * 3 / 4, 0} {
+		resp, err := http.Get(fmt.Sprintf("%sapi/frame/%d.jpg", base, n))
+		if err != nil {
+			t.Fatalf("frame %d: %v (server gone?)", n, err)
+		}
+		b, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode >= 400 && !bytes.Contains(b, []byte(clip)) {
+			t.Errorf("frame %d: error %q does not name the clip", n, b)
+		}
+		switch {
+		case n <= 10 && resp.StatusCode != 200:
+			t.Errorf("frame %d of the intact part: %d", n, resp.StatusCode)
+		case resp.StatusCode != 200 && resp.StatusCode != 404 && resp.StatusCode != 422:
+			t.Errorf("frame %d: status %d, want 200, 404 or 422", n, resp.StatusCode)
+		}
+	}
+	var info infoJSON
+	getJSON(t, base+"api/info", &info)
+	t.Logf("truncated clip: the container lists %d frames", info.Frames)
+}

@@ -151,6 +151,7 @@ function fetchFrame() {
   pic.onload = async () => {
     await ov;
     img.src = pic.src;
+    img.classList.remove("missing");
     img.dataset.frame = String(want);
     S.shown = want;
     S.loading = false;
@@ -161,7 +162,11 @@ function fetchFrame() {
   };
   pic.onerror = () => {
     S.loading = false;
-    status("frame " + want + " could not be shown", true);
+    img.classList.add("missing");
+    img.dataset.frame = "-1";
+    fetch(pic.src).then((r) => r.json()).then((b) => status(b.error, true))
+      .catch(() => status("frame " + want + " could not be shown", true));
+    if (S.frame !== want) fetchFrame();
   };
   pic.src = "/api/frame/" + want + ".jpg";
 }
@@ -346,13 +351,15 @@ function drawLoupe() {
     S.marks.points.forEach((p, i) => {
       const [x, y] = L(p.px[0], p.px[1]);
       if (x < -10 || y < -10 || x > c.width + 10 || y > c.height + 10) return;
-      ctx.strokeStyle = i === S.sel ? "#ffffff" : "#ffd24a";
-      ctx.lineWidth = 2;
-      ctx.beginPath();
-      ctx.arc(x, y, 6, 0, 2 * Math.PI);
-      ctx.moveTo(x - 3, y); ctx.lineTo(x + 3, y);
-      ctx.moveTo(x, y - 3); ctx.lineTo(x, y + 3);
-      ctx.stroke();
+      for (const [color, width] of [["rgba(0,0,0,.8)", 4], [i === S.sel ? "#50dcff" : "#ffd24a", 2]]) {
+        ctx.strokeStyle = color;
+        ctx.lineWidth = width;
+        ctx.beginPath();
+        ctx.arc(x, y, 7, 0, 2 * Math.PI);
+        ctx.moveTo(x - 3, y); ctx.lineTo(x + 3, y);
+        ctx.moveTo(x, y - 3); ctx.lineTo(x, y + 3);
+        ctx.stroke();
+      }
     });
   }
 }
@@ -966,6 +973,12 @@ function bind() {
     $(id).addEventListener("change", () => { readTower(); touch(); });
   }
   document.addEventListener("keydown", onKey);
+  // Buttons and boxes give the keyboard back after a click, so that Space
+  // plays rather than pressing the last button again.
+  document.addEventListener("click", (ev) => {
+    const el = ev.target;
+    if (el.tagName === "BUTTON" || (el.tagName === "INPUT" && el.type === "checkbox")) el.blur();
+  });
   window.addEventListener("resize", layout);
   window.addEventListener("beforeunload", (ev) => { if (S.dirty) { ev.preventDefault(); ev.returnValue = ""; } });
 }
