@@ -63,3 +63,7 @@ func meanStd(xs []float64) (mean, std float64) {
 	}
 	return
 }
+
+func markPoint(id string, x, y float64) marks.Point {
+	return marks.Point{ID: id, PX: [2]float64{x, y}}
+}
