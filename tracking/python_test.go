@@ -95,7 +95,7 @@ func TestAgreesWithPythonOpenCV(t *testing.T) {
 			}
 			var pyOut []struct {
 				Pts    [][2]float64 `json:"pts"`
-				Status []int       `json:"status"`
+				Status []int        `json:"status"`
 			}
 			if err := json.Unmarshal(outJSON, &pyOut); err != nil {
 				t.Fatal(err)
