@@ -179,12 +179,23 @@ func (r *Renderer) Frame(i int, dst *gocv.Mat) error {
 	tsec := float64(i) / r.s.CaptureFPS
 	gain := 1 + r.s.Flicker*(0.75*math.Sin(2*math.Pi*100*tsec+r.flick[0])+0.25*math.Sin(2*math.Pi*r.flick[2]*tsec+r.flick[1]))
 	g := float32(gain)
-	sigma := float32(r.s.Noise)
-	if sigma > 0 {
+	if r.s.Noise > 0 {
+		// shot noise grows with the signal: variance = Noise^2 * (0.35 + 0.65 * level / 128)
+		var sig [257]float32
+		for k := range sig {
+			sig[k] = float32(r.s.Noise * math.Sqrt(0.35+0.65*float64(k)/128))
+		}
 		rng := rand.New(rand.NewPCG(uint64(r.s.Seed), uint64(i)+1))
 		off := rng.IntN(noiseTable)
 		for q, v := range src {
-			out[q] = toByte(v*g + sigma*r.noise[(off+q)&(noiseTable-1)])
+			v *= g
+			k := int(v)
+			if k < 0 {
+				k = 0
+			} else if k > 256 {
+				k = 256
+			}
+			out[q] = toByte(v + sig[k]*r.noise[(off+q)&(noiseTable-1)])
 		}
 	} else {
 		for q, v := range src {
@@ -223,10 +234,10 @@ func (r *Renderer) blurSamples(i int) int {
 		d := math.Hypot(p.PX[b][0]-p.PX[a][0], p.PX[b][1]-p.PX[a][1]) / float64(b-a)
 		v = math.Max(v, d)
 	}
-	if v < 0.6 {
+	if v < 0.7 {
 		return 1
 	}
-	return int(math.Min(10, math.Ceil(v/0.6)))
+	return int(math.Min(6, math.Ceil(v/0.7)))
 }
 
 type prim struct {

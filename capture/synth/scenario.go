@@ -121,7 +121,8 @@ type Scenario struct {
 	// SwayMM is the top level's sideways sway just before collapse. Default 1.5.
 	SwayMM float64
 
-	// Noise is the standard deviation of the sensor noise in 8-bit grey levels. Default 2.
+	// Noise is the standard deviation of the sensor noise in 8-bit grey
+	// levels at mid grey (128); like shot noise it grows with brightness. Default 2.
 	Noise float64
 	// Flicker is the relative amplitude of the light flicker (0.03 = 3 %). Default 0.03.
 	Flicker float64

@@ -95,7 +95,7 @@ func Write(s Scenario, dir string, progress func(done, total int)) (*Truth, erro
 		ff = exec.Command(ffmpeg, "-hide_banner", "-loglevel", "error", "-y",
 			"-f", "rawvideo", "-pix_fmt", "bgr24", "-s", fmt.Sprintf("%dx%d", s.Width, s.Height),
 			"-r", strconv.FormatFloat(s.ContainerFPS, 'f', -1, 64), "-i", "-",
-			"-c:v", "libx264", "-preset", "fast", "-pix_fmt", "yuv420p", "-crf", "12", mp4Tmp)
+			"-c:v", "libx264", "-preset", "veryfast", "-pix_fmt", "yuv420p", "-crf", "12", mp4Tmp)
 		ff.Stderr = &ffErr
 		if ffIn, err = ff.StdinPipe(); err != nil {
 			vw.Close()
@@ -183,7 +183,11 @@ func Write(s Scenario, dir string, progress func(done, total int)) (*Truth, erro
 			return nil, fmt.Errorf("synth: %w", err)
 		}
 	}
-	if err := marks.Save(filepath.Join(dir, MarksFile), r.Marks()); err != nil {
+	mp := filepath.Join(dir, MarksFile)
+	if err := marks.Save(mp, r.Marks()); err != nil {
+		return nil, fmt.Errorf("synth: %w", err)
+	}
+	if err := os.Chmod(mp, 0o644); err != nil {
 		return nil, fmt.Errorf("synth: %w", err)
 	}
 	return truth, nil

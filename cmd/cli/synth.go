@@ -91,7 +91,7 @@ The same --seed gives the same clip, bit for bit.` + exitHelp,
 	f.StringVar(&s.Fail, "fail", s.Fail, `member that buckles first (e.g. AB-d1, AB-x1a, leg-B), "twist" for a tower that twists as a whole, or empty for the pattern's default (a long diagonal on the face toward the camera; for horizontal bracing the leg nearest the camera over its full height)`)
 	f.Float64Var(&s.TwistDeg, "twist-deg", s.TwistDeg, "top twist just before collapse, degrees counter-clockwise from above; negative = pattern default (6 for horizontal bracing or --fail twist, else 0.8)")
 	f.Float64Var(&s.SwayMM, "sway-mm", s.SwayMM, "top sway just before collapse, mm")
-	f.Float64Var(&s.Noise, "noise", s.Noise, "sensor noise, standard deviation in 8-bit grey levels")
+	f.Float64Var(&s.Noise, "noise", s.Noise, "sensor noise, standard deviation in 8-bit grey levels at mid grey (grows with brightness)")
 	f.Float64Var(&s.Flicker, "flicker", s.Flicker, "light flicker, relative amplitude (0.03 = 3 %)")
 	f.Float64Var(&s.BlurPX, "blur-px", s.BlurPX, "lens blur, standard deviation in px")
 	f.Float64Var(&s.MassG, "mass-g", s.MassG, "tower mass, g")
