@@ -520,3 +520,31 @@ func TestServerTruncatedClip(t *testing.T) {
 	getJSON(t, base+"api/info", &info)
 	t.Logf("truncated clip: the container lists %d frames", info.Frames)
 }
+
+func TestNewNamesBadReportFiles(t *testing.T) {
+	dir := t.TempDir()
+	clip := makeClip(t, dir)
+	tests := []struct {
+		file, content, want string
+	}{
+		{"points.csv", "frame,time_s,point,x_px,y_px,x_mm,y_mm,quality,lost\n0,0,A,1,2,,,0.9,0\nx,0,A,1,2,,,0.9,0\n", "line 3"},
+		{"members.csv", "frame,time_s,member,kind,bow_mm,bow_pct,strain_pct,rotation_deg\n0,0,m,brace,0.1,abc,,\n", "line 2"},
+		{"load.csv", "video_time_s,load_g\n0,0\n0.1,lots\n", "line 3"},
+		{"report.json", `{"version": 99}`, "version 99"},
+	}
+	for _, tt := range tests {
+		t.Run(tt.file, func(t *testing.T) {
+			rep, mk := makeReport(t, t.TempDir())
+			p := filepath.Join(rep, tt.file)
+			write(t, p, tt.content)
+			s, err := New(Config{Clip: clip, Marks: mk, Report: rep})
+			if err == nil {
+				s.Close()
+				t.Fatalf("bad %s accepted", tt.file)
+			}
+			if !strings.Contains(err.Error(), p) || !strings.Contains(err.Error(), tt.want) {
+				t.Errorf("error %q, want one naming %s and %q", err, p, tt.want)
+			}
+		})
+	}
+}

@@ -13,87 +13,16 @@ import (
 	"github.com/failframe/failframe/tracking/tracks"
 )
 
-// readTracks reads points.csv of a report folder (columns frame, time_s,
-// point, x_px, y_px, x_mm, y_mm, quality, lost; one row per frame and point).
+// readTracks reads points.csv of a report folder.
 func readTracks(path string) (*tracks.Tracks, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("read tracks %s: %w", path, err)
 	}
 	defer f.Close()
-	r := csv.NewReader(f)
-	head, err := r.Read()
+	t, err := tracks.ReadCSV(f)
 	if err != nil {
-		return nil, fmt.Errorf("read tracks %s: header: %w", path, err)
-	}
-	col := map[string]int{}
-	for i, h := range head {
-		col[strings.TrimSpace(h)] = i
-	}
-	for _, need := range []string{"frame", "point", "x_px", "y_px"} {
-		if _, ok := col[need]; !ok {
-			return nil, fmt.Errorf("read tracks %s: header lacks column %s", path, need)
-		}
-	}
-	t := &tracks.Tracks{}
-	ids := map[string]int{}
-	for {
-		rec, err := r.Read()
-		if errors.Is(err, io.EOF) {
-			break
-		}
-		if err != nil {
-			return nil, fmt.Errorf("read tracks %s: %w", path, err)
-		}
-		line, _ := r.FieldPos(0)
-		fr, err := strconv.Atoi(rec[col["frame"]])
-		if err != nil {
-			return nil, fmt.Errorf("read tracks %s line %d: frame %q: %w", path, line, rec[col["frame"]], err)
-		}
-		id := rec[col["point"]]
-		j, ok := ids[id]
-		if !ok {
-			if len(t.Frames) > 1 {
-				return nil, fmt.Errorf("read tracks %s line %d: point %s first appears after frame %d", path, line, id, t.Frames[0])
-			}
-			j = len(t.IDs)
-			ids[id] = j
-			t.IDs = append(t.IDs, id)
-			for i := range t.Samples {
-				t.Samples[i] = append(t.Samples[i], tracks.Sample{X: math.NaN(), Y: math.NaN(), Lost: true})
-			}
-		}
-		if n := len(t.Frames); n == 0 || t.Frames[n-1] != fr {
-			if n > 0 && fr < t.Frames[n-1] {
-				return nil, fmt.Errorf("read tracks %s line %d: frame %d after frame %d", path, line, fr, t.Frames[n-1])
-			}
-			t.Frames = append(t.Frames, fr)
-			row := make([]tracks.Sample, len(t.IDs))
-			for k := range row {
-				row[k] = tracks.Sample{X: math.NaN(), Y: math.NaN(), Lost: true}
-			}
-			t.Samples = append(t.Samples, row)
-		}
-		s := tracks.Sample{X: math.NaN(), Y: math.NaN()}
-		num := func(name string) float64 {
-			i, ok := col[name]
-			if !ok || i >= len(rec) || rec[i] == "" {
-				return math.NaN()
-			}
-			v, err := strconv.ParseFloat(rec[i], 64)
-			if err != nil {
-				return math.NaN()
-			}
-			return v
-		}
-		s.X, s.Y, s.Quality = num("x_px"), num("y_px"), num("quality")
-		if i, ok := col["lost"]; ok && i < len(rec) {
-			s.Lost = rec[i] == "1" || strings.EqualFold(rec[i], "true")
-		}
-		if math.IsNaN(s.X) || math.IsNaN(s.Y) {
-			s.Lost = true
-		}
-		t.Samples[len(t.Samples)-1][j] = s
+		return nil, fmt.Errorf("read tracks %s: %w", path, err)
 	}
 	return t, nil
 }
