@@ -97,6 +97,10 @@ type model struct {
 	dropMax   float64
 	twistC    float64
 	nCollapse float64
+	// after the break, before the collapse: the failed panel shears
+	shearDir   vec3
+	shearMM    float64
+	shearTwist float64
 
 	// block
 	blockFace int // side face (0..3 as faces) carrying the stickers
@@ -427,6 +431,7 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 			}
 			m.zLo, m.zHi = m.levelsZ[lo], m.levelsZ[mb.panel]
 			lean = m.faceNorm[f]
+			m.shearDir = b.sub(a).unit().scale(sign)
 			m.leanMax, m.dropMax, m.twistC = 28*math.Pi/180, 0.5*(m.zHi-m.zLo), 8*math.Pi/180
 		}
 		spanLen := mb.rest * (m.span1 - m.span0)
@@ -441,6 +446,11 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 		m.tau = float64(s.BreakFrame-s.OnsetFrame) / math.Log(m.bBreak/m.bOn)
 		m.e0 = math.Exp(-float64(s.OnsetFrame) / m.tau)
 		side := axis.cross(m.bowDir).unit()
+		if m.shearDir == (vec3{}) {
+			m.shearDir = vec3{m.bowDir.x, m.bowDir.y, 0}.unit()
+		}
+		m.shearMM = math.Min(3, 0.025*(m.zHi-m.zLo))
+		m.shearTwist = 0.25 * m.twistTop
 		m.kick0 = m.bowDir.scale(1.2 * m.bBreak).sub(axis.scale(1.2)).add(side.scale(1.0))
 		m.kick1 = m.bowDir.scale(0.45 * m.bBreak).add(axis.scale(1.2)).sub(side.scale(0.8))
 	}
@@ -470,7 +480,7 @@ func (m *model) off(s float64, half int, t float64) vec3 {
 	if t <= bt {
 		return m.bowDir.scale(m.bow(t) * shape)
 	}
-	e := 1 - math.Exp(-(t-bt)/4)
+	e := 1 - math.Exp(-(t-bt)/1.5) // a snapped stick springs apart within a few frames
 	d := m.bowDir.scale(m.bBreak * shape)
 	if half == 0 {
 		return d.add(m.kick0.scale(e * (s - m.span0) / (m.sBreak - m.span0)))
@@ -487,10 +497,13 @@ func (m *model) broken(t float64) bool {
 func (m *model) levelMotion(z, t float64) (float64, vec3, float64) {
 	s := m.s
 	c := float64(s.CollapseFrame)
-	tt := math.Min(t, c)
-	if tt < 0 {
-		tt = 0
+	// twist and sway reach their set values when the first member breaks
+	// (for a twist failure: at the collapse); settlement at the collapse
+	end := c
+	if m.fail >= 0 {
+		end = float64(s.BreakFrame)
 	}
+	tt := math.Max(0, math.Min(t, end))
 	h := z / s.HeightMM
 	var g float64
 	if m.fail < 0 {
@@ -498,19 +511,20 @@ func (m *model) levelMotion(z, t float64) (float64, vec3, float64) {
 		if tt < on {
 			g = 0.15 * tt / on
 		} else {
-			r := (tt - on) / (c - on)
+			r := (tt - on) / (end - on)
 			g = 0.15 + 0.85*r*r
 		}
 	} else {
-		r := tt / c
+		r := tt / end
 		g = r * r
 	}
 	twist := m.twistTop * g * h
-	r := tt / c
+	r := tt / end
 	sway := m.swayDir.scale(s.SwayMM * h * h * math.Pow(r, 1.5))
-	vib := 0.04 * s.SwayMM * h * h * math.Sin(2*math.Pi*m.vibHz*tt/s.CaptureFPS)
+	tv := math.Max(0, math.Min(t, c))
+	vib := 0.04 * s.SwayMM * h * h * math.Sin(2*math.Pi*m.vibHz*tv/s.CaptureFPS)
 	sway = sway.add(m.swayVibDir.scale(vib))
-	settle := m.settleMax * h * r
+	settle := m.settleMax * h * tv / c
 	return twist, sway, settle
 }
 
@@ -519,21 +533,24 @@ func (m *model) levelMotion(z, t float64) (float64, vec3, float64) {
 // the collapse.
 func (m *model) transform(p vec3, z0, t float64) vec3 {
 	tw, sw, se := m.levelMotion(z0, t)
+	w := (z0 - m.zLo) / (m.zHi - m.zLo)
+	w = math.Max(0, math.Min(1, w))
+	if m.broken(t) && w > 0 {
+		// the panel that lost its member shears and twists a little more
+		e := w * (1 - math.Exp(-(t-float64(m.s.BreakFrame))/5))
+		tw += m.shearTwist * e
+		sw = sw.add(m.shearDir.scale(m.shearMM * e))
+	}
 	q := rotZ(p, tw).add(sw)
 	q.z -= se
 	c := (t - float64(m.s.CollapseFrame)) / m.nCollapse
-	if c <= 0 {
+	if c <= 0 || w == 0 {
 		return q
 	}
 	if c > 1 {
 		c = 1
 	}
-	c2 := c * c
-	w := (z0 - m.zLo) / (m.zHi - m.zLo)
-	w = math.Max(0, math.Min(1, w))
-	if w == 0 {
-		return q
-	}
+	c2 := 0.25*c + 0.75*c*c // released spring energy, then gravity
 	hinge := vec3{0, 0, m.zLo}
 	d := q.sub(hinge)
 	d = rotZ(d, m.twistC*c2*w)

@@ -114,11 +114,14 @@ type Scenario struct {
 	// pattern's default: a long diagonal on the face nearest the camera, or
 	// for horizontal-only bracing the leg nearest the camera over its full height.
 	Fail string
-	// TwistDeg is the top level's twist just before collapse, degrees
-	// counter-clockwise from above; negative means the pattern default
-	// (6 for horizontal-only bracing or Fail = "twist", 0.8 otherwise). Default -1.
+	// TwistDeg is the top level's twist when the first member breaks (for
+	// Fail = "twist": at the collapse), degrees counter-clockwise from above;
+	// negative means the pattern default (6 for horizontal-only bracing or
+	// Fail = "twist", 0.8 otherwise). The panel that lost its member twists a
+	// quarter of this more between the break and the collapse. Default -1.
 	TwistDeg float64
-	// SwayMM is the top level's sideways sway just before collapse. Default 1.5.
+	// SwayMM is the top level's sideways sway when the first member breaks
+	// (for Fail = "twist": at the collapse). Default 1.5.
 	SwayMM float64
 
 	// Noise is the standard deviation of the sensor noise in 8-bit grey
