@@ -155,6 +155,9 @@ func TestReviewPageInChromium(t *testing.T) {
 	if n := eval[int](t, ctx, `document.querySelectorAll("#ticks span").length`); n != 3 {
 		t.Errorf("%d event ticks on the scrubber, want 3", n)
 	}
+	if href := eval[string](t, ctx, `(document.querySelector("#summary a") || {}).href || ""`); href != base+"files/report.html" {
+		t.Errorf("link to the full report %q", href)
+	}
 	do(t, ctx, "next event key", chromedp.KeyEvent("e"))
 	waitFrame(t, ctx, sr.truth.CollapseFrame)
 

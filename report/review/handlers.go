@@ -37,6 +37,7 @@ type infoJSON struct {
 	HasTracks      bool     `json:"has_tracks"`
 	HasLoad        bool     `json:"has_load"`
 	CanSaveStill   bool     `json:"can_save_still"`
+	HasHTML        bool     `json:"has_html"`
 	FirstMember    string   `json:"first_member,omitempty"`
 	BowLow         float64  `json:"bow_low"`
 	BowHigh        float64  `json:"bow_high"`
@@ -63,6 +64,11 @@ func (s *Server) handleInfo(w http.ResponseWriter, r *http.Request) {
 	}
 	if s.cfg.Report != "" {
 		info.Report = s.cfg.Report
+	}
+	if s.reportFS != nil {
+		if st, err := s.reportFS.Stat("report.html"); err == nil && !st.IsDir() {
+			info.HasHTML = true
+		}
 	}
 	if s.result != nil {
 		info.FirstMember = s.result.FirstMember

@@ -275,11 +275,13 @@ func makeSynthReview(t testing.TB, dir string, w, h, frames int) synthReview {
 		},
 		PeakLoadG: f(tr.PeakLoadG), MassG: f(tr.MassG), Efficiency: f(tr.Efficiency),
 		Alignment: &report.Alignment{Method: "auto", OffsetS: tr.LoadOffsetS, UncertaintyS: tr.LoadPeriodS},
+		Advice:    []string{"Cut the long diagonals in half with a second brace crossing them at mid-span."},
 	}
 	data, err := json.MarshalIndent(res, "", "  ")
 	if err != nil {
 		t.Fatal(err)
 	}
 	write(t, filepath.Join(sr.report, report.ResultFile), string(data))
+	write(t, filepath.Join(sr.report, "report.html"), "<!doctype html><title>report</title><p>test report page</p>")
 	return sr
 }

@@ -394,7 +394,12 @@ function renderEvents() {
   if (R.first_member) bits.push("first to go <b>" + esc(R.first_member) + "</b>");
   if (R.peak_load_g != null) bits.push("peak <b>" + R.peak_load_g.toFixed(0) + " g</b>");
   if (R.efficiency != null) bits.push("efficiency <b>" + R.efficiency.toFixed(0) + "</b>");
-  $("summary").innerHTML = bits.join(" · ") + (R.account ? "<br>" + esc(R.account) : "");
+  let html = bits.join(" · ") + (R.account ? "<br>" + esc(R.account) : "");
+  if (R.advice && R.advice.length) {
+    html += "<ul class='advice'>" + R.advice.map((a) => "<li>" + esc(a) + "</li>").join("") + "</ul>";
+  }
+  if (S.info.has_html) html += `<a href="/files/report.html" target="_blank" rel="noopener">open the full report</a>`;
+  $("summary").innerHTML = html;
   const ticks = $("ticks");
   ticks.innerHTML = "";
   for (const ev of R.events || []) {
