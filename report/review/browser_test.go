@@ -248,6 +248,12 @@ func TestReviewPageInChromium(t *testing.T) {
 		chromedp.MouseClickXY(clicks[1][0], clicks[1][1], chromedp.ButtonModifiers(chromedp.ModifierShift)),
 		chromedp.SetValue(chromedp.ID("memId"), "AB-d1"),
 		chromedp.Click(chromedp.ID("joinBtn")))
+	// Scale from the first and third points.
+	do(t, ctx, "scale", chromedp.Evaluate[chromedp.Void](`(() => {
+		document.getElementById("scFrom").value = "A1";
+		document.getElementById("scTo").value = "P3";
+		document.getElementById("scMM").value = "120";
+	})()`), chromedp.Click(chromedp.ID("scSet")))
 	if n := eval[int](t, ctx, `document.querySelectorAll("#memberList li").length`); n != 1 {
 		t.Fatalf("%d members after joining, want 1; status %q", n, eval[string](t, ctx, `document.getElementById("status").textContent`))
 	}
@@ -287,6 +293,12 @@ func TestReviewPageInChromium(t *testing.T) {
 	if len(m.Members) != 1 || m.Members[0].ID != "AB-d1" || m.Members[0].Kind != "brace" ||
 		len(m.Members[0].Points) != 2 || m.Members[0].Points[0] != "A1" || m.Members[0].Points[1] != m.Points[1].ID {
 		t.Errorf("members %+v, want brace AB-d1 joining A1 and %s", m.Members, m.Points[1].ID)
+	}
+
+	if m.Scale == nil || m.Scale.From != "A1" || m.Scale.To != "P3" || m.Scale.MM != 120 {
+		t.Errorf("scale %+v, want A1 to P3 = 120 mm", m.Scale)
+	} else if mmpx, _ := m.MMPerPixel(); math.Abs(mmpx-120/math.Hypot(want[0][0]-want[2][0], want[0][1]-want[2][1])) > 1e-3 {
+		t.Errorf("scale %g mm/px, want %g", mmpx, 120/math.Hypot(want[0][0]-want[2][0], want[0][1]-want[2][1]))
 	}
 
 	// Reopening shows the same marks.
