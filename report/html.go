@@ -98,7 +98,8 @@ figure img{max-width:100%;border:1px solid #d7dde3}
 figcaption{font-size:.9em;color:#55606b}
 .evidence{display:grid;grid-template-columns:repeat(auto-fill,minmax(320px,1fr));gap:1em}
 table{border-collapse:collapse;margin:.8em 0;font-size:.92em}
-th,td{border:1px solid #d7dde3;padding:.25em .6em;text-align:right}
+th,td{border:1px solid #d7dde3;padding:.25em .6em;text-align:right;white-space:nowrap}
+td.l{white-space:normal}
 th{background:#f0f3f6}
 td.l,th.l{text-align:left}
 .warn li{color:#8a4b00}

@@ -6,6 +6,7 @@ package plots
 import (
 	"fmt"
 	"image/color"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -15,6 +16,7 @@ import (
 	"gonum.org/v1/plot/plotutil"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
 )
 
 // Series is one line of a chart.
@@ -72,15 +74,31 @@ func (c Chart) Save(dir, name string) ([]string, error) {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return nil, fmt.Errorf("plot %s: %w", name, err)
 	}
-	var files []string
-	for _, ext := range []string{".png", ".svg"} {
-		f := name + ext
-		if err := p.Save(vg.Length(w)*vg.Centimeter, vg.Length(h)*vg.Centimeter, filepath.Join(dir, f)); err != nil {
-			return nil, fmt.Errorf("plot %s: %w", f, err)
-		}
-		files = append(files, f)
+	width, height := vg.Length(w)*vg.Centimeter, vg.Length(h)*vg.Centimeter
+	png := vgimg.PngCanvas{Canvas: vgimg.NewWith(vgimg.UseWH(width, height), vgimg.UseDPI(DPI))}
+	p.Draw(draw.New(png))
+	if err := writeTo(filepath.Join(dir, name+".png"), png); err != nil {
+		return nil, fmt.Errorf("plot %s.png: %w", name, err)
 	}
-	return files, nil
+	if err := p.Save(width, height, filepath.Join(dir, name+".svg")); err != nil {
+		return nil, fmt.Errorf("plot %s.svg: %w", name, err)
+	}
+	return []string{name + ".png", name + ".svg"}, nil
+}
+
+// DPI is the resolution of the PNG copies.
+const DPI = 144
+
+func writeTo(path string, w io.WriterTo) error {
+	f, err := os.Create(path)
+	if err != nil {
+		return err
+	}
+	if _, err := w.WriteTo(f); err != nil {
+		f.Close()
+		return err
+	}
+	return f.Close()
 }
 
 func (c Chart) plot() (*plot.Plot, error) {
@@ -163,19 +181,26 @@ func (m *marks) Plot(c draw.Canvas, plt *plot.Plot) {
 	sty.Rotation = math.Pi / 2
 	sty.XAlign = draw.XRight
 	sty.YAlign = draw.YTop
+	lastLabel := vg.Length(math.Inf(-1))
 	for _, mk := range m.marks {
 		x := trX(mk.X)
 		if !c.ContainsX(x) {
 			continue
+		}
+		label := mk.Label
+		if x-lastLabel < sty.Font.Size*1.2 {
+			label = "" // too close to the last label to be read
+		} else if label != "" {
+			lastLabel = x
 		}
 		ls := draw.LineStyle{Color: color.Gray{Y: 120}, Width: vg.Points(0.8), Dashes: []vg.Length{vg.Points(3), vg.Points(2)}}
 		if mk.Strong {
 			ls.Color = color.RGBA{R: 200, A: 255}
 		}
 		c.StrokeLine2(ls, x, c.Min.Y, x, c.Max.Y)
-		if mk.Label != "" {
+		if label != "" {
 			sty.Color = ls.Color
-			c.FillText(sty, vg.Point{X: x + vg.Points(1), Y: c.Max.Y - vg.Points(2)}, mk.Label)
+			c.FillText(sty, vg.Point{X: x + vg.Points(1), Y: c.Max.Y - vg.Points(2)}, label)
 		}
 	}
 }

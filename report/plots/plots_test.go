@@ -40,9 +40,9 @@ func TestSavePNGAndSVG(t *testing.T) {
 	if err != nil {
 		t.Fatalf("PNG does not decode: %v", err)
 	}
-	// 16 cm at gonum's default 96 dpi is about 605 px wide.
-	if b := img.Bounds(); b.Dx() < 550 || b.Dx() > 660 || b.Dy() < 300 || b.Dy() > 380 {
-		t.Errorf("PNG size %v, want about 605 x 340", b)
+	// 16 cm x 9 cm at 144 dpi is 907 x 510 px (1 in = 2.54 cm).
+	if b := img.Bounds(); b.Dx() < 900 || b.Dx() > 914 || b.Dy() < 505 || b.Dy() > 515 {
+		t.Errorf("PNG size %v, want about 907 x 510", b)
 	}
 	// The strong mark is drawn in red somewhere.
 	red := 0

@@ -38,7 +38,7 @@ params="seed=5 w=1280 h=720 frames=$FRAMES onset=1500 break=1900 collapse=1950 b
 if [ ! -f "$CLIP/tower.mp4" ] || [ "$(cat "$stamp" 2>/dev/null)" != "$params" ]; then
 	echo "bench: rendering the $FRAMES-frame 1280x720 clip (once; kept in $CLIP)" >&2
 	rm -rf "$CLIP"
-	"$BIN" synth --out "$CLIP" --seed 5 --bracing z --width 1280 --height 720 --focal-px 1600 \
+	"$BIN" synth --out "$CLIP" --seed 5 --bracing z --width 1280 --height 720 --focal-px 1100 \
 		--frames $FRAMES --onset-frame 1500 --break-frame 1900 --collapse-frame 1950 >/dev/null
 	echo "$params" >"$stamp"
 fi
