@@ -451,8 +451,9 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 		}
 		m.shearMM = math.Min(3, 0.025*(m.zHi-m.zLo))
 		m.shearTwist = 0.25 * m.twistTop
-		m.kick0 = m.bowDir.scale(1.2 * m.bBreak).sub(axis.scale(1.2)).add(side.scale(1.0))
-		m.kick1 = m.bowDir.scale(0.45 * m.bBreak).add(axis.scale(1.2)).sub(side.scale(0.8))
+		// the halves spring apart: further along the bow, sliding past each other
+		m.kick0 = m.bowDir.scale(1.5 * m.bBreak).sub(axis.scale(1.5)).add(side.scale(1.2))
+		m.kick1 = m.bowDir.scale(1.0 * m.bBreak).add(axis.scale(1.5)).sub(side.scale(1.0))
 	}
 	m.leanAxis = vec3{0, 0, 1}.cross(vec3{lean.x, lean.y, 0}.unit())
 }

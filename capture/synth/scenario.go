@@ -225,6 +225,8 @@ func (s Scenario) validateFields() error {
 		return fmt.Errorf("frame size %dx%d: width and height must be even (H.264 with 4:2:0 colour)", s.Width, s.Height)
 	case s.FocalPX <= 0:
 		return fmt.Errorf("focal length %g px must be positive", s.FocalPX)
+	case s.CameraHeightMM <= 0:
+		return fmt.Errorf("camera height %g mm must be above the table (positive)", s.CameraHeightMM)
 	case s.DistanceMM <= s.BaseMM:
 		return fmt.Errorf("camera distance %g mm must be larger than the base width %g mm", s.DistanceMM, s.BaseMM)
 	case s.CaptureFPS <= 0 || s.CaptureFPS > 1e6:

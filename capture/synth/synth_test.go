@@ -526,3 +526,69 @@ func TestValidate(t *testing.T) {
 		t.Errorf("default scenario: %v", err)
 	}
 }
+
+// TestVariedScenes renders one frame of several varied, seeded scenes: every
+// marker must be inside the frame and darker than the paper around it, and
+// the truth series must cover every frame.
+func TestVariedScenes(t *testing.T) {
+	tests := []struct {
+		name string
+		edit func(*Scenario)
+	}{
+		{"one level, diagonal", func(s *Scenario) { s.Levels = 1; s.Bracing = BracingDiagonal }},
+		{"six levels, x, steep", func(s *Scenario) {
+			s.Levels, s.Bracing, s.HeightMM, s.TopMM, s.DistanceMM = 6, BracingX, 420, 40, 900
+		}},
+		{"face-on, horizontal, big twist", func(s *Scenario) { s.AzimuthDeg, s.Bracing, s.TwistDeg = 0, BracingHorizontal, 12 }},
+		{"from the C-D side, high camera", func(s *Scenario) { s.AzimuthDeg, s.CameraHeightMM, s.DistanceMM = 200, 400, 800 }},
+		{"untapered, brace x2b fails", func(s *Scenario) { s.TopMM, s.Bracing, s.Fail = 100, BracingX, "AB-x2b"; s.DistanceMM = 750 }},
+		{"noisy, flickering, blurred", func(s *Scenario) { s.Noise, s.Flicker, s.BlurPX = 8, 0.1, 1.5 }},
+	}
+	for i, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			s := short()
+			s.Seed = int64(100 + i)
+			s.Width, s.Height, s.FocalPX = 320, 240, 370
+			s.MarkerMM = 8
+			tt.edit(&s)
+			r, err := NewRenderer(s)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer r.Close()
+			tr := r.Truth()
+			for _, l := range tr.Levels {
+				if len(l.TwistDeg) != s.Frames || len(l.SwayMM) != s.Frames || len(l.SettleMM) != s.Frames {
+					t.Fatalf("level %d series do not cover %d frames", l.Level, s.Frames)
+				}
+			}
+			img, grey := gocv.NewMat(), gocv.NewMat()
+			defer img.Close()
+			defer grey.Close()
+			f := s.OnsetFrame
+			if err := r.Frame(f, &img); err != nil {
+				t.Fatal(err)
+			}
+			gocv.CvtColor(img, &grey, gocv.ColorBGRToGray)
+			n := 0
+			for _, p := range tr.Points {
+				if !p.Marker {
+					continue
+				}
+				n++
+				x, y := int(math.Round(p.PX[f][0])), int(math.Round(p.PX[f][1]))
+				if x < 3 || y < 3 || x >= s.Width-3 || y >= s.Height-3 {
+					t.Errorf("%s at (%d, %d) outside the frame", p.ID, x, y)
+					continue
+				}
+				centre := float64(grey.GetUCharAt(y, x))
+				if centre > 110 {
+					t.Errorf("%s: pixel at its truth position is %.0f, not a dark dot", p.ID, centre)
+				}
+			}
+			if n < 10 {
+				t.Errorf("only %d markers", n)
+			}
+		})
+	}
+}
