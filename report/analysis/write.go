@@ -76,7 +76,16 @@ func (w *writer) csv(name string, fill func(b *bufio.Writer) error) error {
 func (w *writer) csvs() error {
 	mmpp := w.meas.MMPerPx
 	if err := w.csv("points.csv", func(b *bufio.Writer) error {
-		return writePointsCSV(b, w.tr, w.m, w.tb.CaptureFPS, mmpp)
+		if w.tr.Ref == nil {
+			// mm are relative to the marked reference positions.
+			ref := make([][2]float64, len(w.tr.IDs))
+			for j, id := range w.tr.IDs {
+				p, _ := w.m.Point(id)
+				ref[j] = p.PX
+			}
+			w.tr.Ref = ref
+		}
+		return tracks.WriteCSV(b, w.tr, w.tb.CaptureFPS, mmpp)
 	}); err != nil {
 		return err
 	}
@@ -455,31 +464,4 @@ func nonEmpty(s, alt string) string {
 		return alt
 	}
 	return s
-}
-
-// writePointsCSV writes points.csv with the columns of the tracks contract:
-// frame,time_s,point,x_px,y_px,x_mm,y_mm,quality,lost (mm relative to the
-// marked reference position, y positive down; empty without a scale).
-func writePointsCSV(b *bufio.Writer, tr *tracks.Tracks, m *marks.File, fps, mmPerPx float64) error {
-	fmt.Fprintln(b, "frame,time_s,point,x_px,y_px,x_mm,y_mm,quality,lost")
-	ref := make([][2]float64, len(tr.IDs))
-	for j, id := range tr.IDs {
-		ref[j] = [2]float64{math.NaN(), math.NaN()}
-		if p, ok := m.Point(id); ok {
-			ref[j] = p.PX
-		}
-	}
-	for i, f := range tr.Frames {
-		for j, id := range tr.IDs {
-			s := tr.Samples[i][j]
-			xm, ym := math.NaN(), math.NaN()
-			if mmPerPx > 0 && !s.Lost {
-				xm, ym = (s.X-ref[j][0])*mmPerPx, (s.Y-ref[j][1])*mmPerPx
-			}
-			if _, err := fmt.Fprintf(b, "%d,%s,%s,%s,%s,%s,%s,%s,%t\n", f, num(float64(f)/fps), id, num(s.X), num(s.Y), num(xm), num(ym), num(s.Quality), s.Lost); err != nil {
-				return err
-			}
-		}
-	}
-	return nil
 }
