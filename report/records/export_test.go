@@ -171,3 +171,34 @@ func TestImportBadArchivesWriteNothing(t *testing.T) {
 		})
 	}
 }
+
+func TestExportRefusesCorruptEvidenceAndKeepsOldArchive(t *testing.T) {
+	s := newStore(t)
+	if _, err := s.Add(sampleBuild("T7")); err != nil {
+		t.Fatal(err)
+	}
+	res, err := s.Attach("T7", fakeReport(t, t.TempDir(), 1, 9000, "brace_buckling", "AB-d1"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(t.TempDir(), "T7.zip")
+	if err := os.WriteFile(out, []byte("older archive"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	f := res.Test.Files[0]
+	obj := filepath.Join(s.ObjectsDir(), f.SHA256[:2], f.SHA256)
+	os.Chmod(obj, 0o644)
+	if err := os.WriteFile(obj, []byte("damaged"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	err = s.ExportFile("T7", out)
+	if err == nil || !strings.Contains(err.Error(), "corrupt") || !strings.Contains(err.Error(), f.Path) {
+		t.Errorf("export of damaged evidence: %v", err)
+	}
+	if b, _ := os.ReadFile(out); string(b) != "older archive" {
+		t.Errorf("failed export replaced the old archive: %q", b)
+	}
+	if ents, _ := os.ReadDir(filepath.Dir(out)); len(ents) != 1 {
+		t.Errorf("temporary files left: %v", ents)
+	}
+}
