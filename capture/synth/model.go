@@ -104,6 +104,31 @@ type model struct {
 
 	// block
 	blockFace int // side face (0..3 as faces) carrying the stickers
+
+	// swinging cord in front of the tower
+	cordAmp, cordPeriod, cordPhase float64
+}
+
+// cordAt returns the bottom and top of the cord's axis at time t (frames).
+func (m *model) cordAt(t float64) (vec3, vec3) {
+	right := m.cam.rows[0]
+	x := m.cordAmp * math.Sin(2*math.Pi*t/m.cordPeriod+m.cordPhase)
+	base := m.camDir.scale(0.3 * m.s.DistanceMM).add(right.scale(x))
+	return base.add(vec3{0, 0, -100}), base.add(vec3{0, 0, 3 * m.s.HeightMM})
+}
+
+// shake returns the image shift of the camera shake at time t (frames).
+func (m *model) shake(t float64) (float64, float64) {
+	if m.s.ShakePX == 0 {
+		return 0, 0
+	}
+	hit := float64(m.s.CollapseFrame) + m.nCollapse
+	d := (t - hit) / m.s.CaptureFPS // seconds since the load hit the floor
+	if d <= 0 {
+		return 0, 0
+	}
+	a := m.s.ShakePX * math.Exp(-d/0.06) * math.Min(1, d/0.004)
+	return a * math.Sin(2*math.Pi*23*d), 0.6 * a * math.Sin(2*math.Pi*31*d+1)
 }
 
 // memberIDs lists the member ids of a scenario's bracing pattern (without building the model).
@@ -378,6 +403,9 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 	m.vibHz = 7 + 4*rng.Float64()
 	m.settleMax = 0.4 + 0.3*rng.Float64()
 	m.nCollapse = math.Max(8, math.Round(0.05*s.CaptureFPS))
+	m.cordAmp = 0.45 * s.BaseMM
+	m.cordPeriod = (0.9 + 0.4*rng.Float64()) * s.CaptureFPS
+	m.cordPhase = rng.Float64() * 2 * math.Pi
 	lean := rotZ(m.camDir, (rng.Float64()*2-1)*math.Pi)
 
 	if m.fail < 0 {

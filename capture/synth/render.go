@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"image"
+	"image/color"
 	"math"
 	"math/rand/v2"
 	"sort"
@@ -25,6 +26,8 @@ type Renderer struct {
 	acc   []float32
 	work  gocv.Mat // float BGR scene
 	blur  gocv.Mat
+	shook gocv.Mat
+	cord  *barTexture
 	noise []float32
 	flick [4]float64 // phases and second frequency
 }
@@ -45,6 +48,8 @@ func NewRenderer(s Scenario) (*Renderer, error) {
 	m.renderBackground(r.bg)
 	r.work = gocv.NewMatWithSize(s.Height, s.Width, gocv.MatTypeCV32FC3)
 	r.blur = gocv.NewMat()
+	r.shook = gocv.NewMat()
+	r.cord = newBarTexture(rand.New(rand.NewPCG(uint64(s.Seed), 0xc0d)), 4*s.HeightMM+200)
 	px, err := r.work.DataPtrFloat32()
 	if err != nil {
 		r.Close()
@@ -64,6 +69,7 @@ func NewRenderer(s Scenario) (*Renderer, error) {
 func (r *Renderer) Close() {
 	r.work.Close()
 	r.blur.Close()
+	r.shook.Close()
 }
 
 // Scenario returns the scenario being rendered.
@@ -170,8 +176,24 @@ func (r *Renderer) Frame(i int, dst *gocv.Mat) error {
 		copy(r.cv.px, r.acc)
 	}
 	src := r.cv.px
+	scene := r.work
+	if dx, dy := r.m.shake(float64(i)); dx != 0 || dy != 0 {
+		// camera shake moves the whole image; linear interpolation keeps each
+		// dot's centroid shifted by exactly (dx, dy)
+		mt := gocv.NewMatWithSize(2, 3, gocv.MatTypeCV64F)
+		mt.SetDoubleAt(0, 0, 1)
+		mt.SetDoubleAt(0, 2, dx)
+		mt.SetDoubleAt(1, 1, 1)
+		mt.SetDoubleAt(1, 2, dy)
+		gocv.WarpAffineWithParams(r.work, &r.shook, mt, image.Pt(r.s.Width, r.s.Height), gocv.InterpolationLinear, gocv.BorderReflect101, color.RGBA{})
+		mt.Close()
+		scene = r.shook
+		if src, err = r.shook.DataPtrFloat32(); err != nil {
+			return fmt.Errorf("synth: %w", err)
+		}
+	}
 	if r.s.BlurPX > 0 {
-		gocv.GaussianBlur(r.work, &r.blur, image.Point{}, r.s.BlurPX, r.s.BlurPX, gocv.BorderReflect101)
+		gocv.GaussianBlur(scene, &r.blur, image.Point{}, r.s.BlurPX, r.s.BlurPX, gocv.BorderReflect101)
 		if src, err = r.blur.DataPtrFloat32(); err != nil {
 			return fmt.Errorf("synth: %w", err)
 		}
@@ -315,5 +337,16 @@ func (r *Renderer) drawScene(t float64) {
 	for _, s := range st {
 		r.cv.drawDisc(s.x, s.y, s.r*1.8, paperColour)
 		r.cv.drawDisc(s.x, s.y, s.r, dotColour)
+	}
+	// the swinging cord, nearest the camera
+	if r.s.CordMM > 0 {
+		b, tp := m.cordAt(t)
+		xb, yb, db := cam.project(b)
+		xt, yt, dt := cam.project(tp)
+		line := [][]barPt{{
+			{xb, yb, r.s.CordMM / 2 * cam.f / db, 0},
+			{xt, yt, r.s.CordMM / 2 * cam.f / dt, tp.sub(b).norm()},
+		}}
+		r.cv.drawBar(line, r.cord, cordColour)
 	}
 }

@@ -136,6 +136,14 @@ type Scenario struct {
 	MassG float64
 	// PeakLoadG is the load at collapse (the peak of the load log). Default 6350.
 	PeakLoadG float64
+	// CordMM is the thickness of a dark cord hanging between the camera and
+	// the tower and swinging slowly sideways, hiding markers now and then;
+	// 0 = no cord. Default 0.
+	CordMM float64
+	// ShakePX is the peak camera shake, in pixels, when the falling load hits
+	// the floor at the end of the collapse; 0 = a still camera. Default 0.
+	ShakePX float64
+
 	// SkipMP4 skips the H.264 copy of the clip even when ffmpeg is present.
 	SkipMP4 bool
 }
@@ -198,7 +206,7 @@ func (s Scenario) Validate() error {
 func (s Scenario) validateFields() error {
 	if !finite(s.BaseMM, s.TopMM, s.HeightMM, s.LegMM, s.BraceMM, s.MarkerMM, s.FocalPX, s.DistanceMM,
 		s.CameraHeightMM, s.AzimuthDeg, s.CaptureFPS, s.ContainerFPS, s.TwistDeg, s.SwayMM, s.Noise,
-		s.Flicker, s.BlurPX, s.MassG, s.PeakLoadG) {
+		s.Flicker, s.BlurPX, s.MassG, s.PeakLoadG, s.CordMM, s.ShakePX) {
 		return errors.New("synth: a numeric option is not a finite number")
 	}
 	known := false
@@ -257,6 +265,10 @@ func (s Scenario) validateFields() error {
 		return fmt.Errorf("tower mass %g g must be positive", s.MassG)
 	case s.PeakLoadG <= 0:
 		return fmt.Errorf("peak load %g g must be positive", s.PeakLoadG)
+	case s.CordMM < 0 || s.CordMM > 20:
+		return fmt.Errorf("cord thickness %g mm: must be 0 to 20", s.CordMM)
+	case s.ShakePX < 0 || s.ShakePX > 50:
+		return fmt.Errorf("camera shake %g px: must be 0 to 50", s.ShakePX)
 	}
 	if s.Fail != "" && s.Fail != FailTwist {
 		ids := memberIDs(s)

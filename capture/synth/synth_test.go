@@ -592,3 +592,133 @@ func TestVariedScenes(t *testing.T) {
 		})
 	}
 }
+
+// TestShakeMovesDots checks that the camera shake after the load lands moves
+// the drawn dots exactly as the truth says.
+func TestShakeMovesDots(t *testing.T) {
+	s := short()
+	s.Noise, s.Flicker, s.ShakePX = 0, 0, 2
+	s.Frames = 100
+	r, err := NewRenderer(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	tr := r.Truth()
+	f := s.CollapseFrame + int(r.m.nCollapse) + 6
+	if math.Hypot(tr.ShakePX[f][0], tr.ShakePX[f][1]) < 0.5 {
+		t.Fatalf("shake at frame %d is only %v px", f, tr.ShakePX[f])
+	}
+	img, grey := gocv.NewMat(), gocv.NewMat()
+	defer img.Close()
+	defer grey.Close()
+	if err := r.Frame(f, &img); err != nil {
+		t.Fatal(err)
+	}
+	gocv.CvtColor(img, &grey, gocv.ColorBGRToGray)
+	g, _ := grey.DataPtrUint8()
+	ps := r.m.pose(float64(f))
+	var worst float64
+	n := 0
+	for i, p := range tr.Points {
+		if !p.Marker {
+			continue
+		}
+		x, y := p.PX[f][0], p.PX[f][1]
+		_, _, d := r.m.cam.project(r.m.pointPos(i, ps))
+		rDot := s.MarkerMM / 2 * s.FocalPX / d
+		if x < 10 || y < 10 || x > float64(s.Width-10) || y > float64(s.Height-10) {
+			continue
+		}
+		// skip dots that the collapse has piled onto others
+		crowded := false
+		for j, q := range tr.Points {
+			if j != i && q.Marker && math.Hypot(q.PX[f][0]-x, q.PX[f][1]-y) < 4*rDot {
+				crowded = true
+			}
+		}
+		if crowded {
+			continue
+		}
+		mx, my, ok := dotCentroid(g, s.Width, s.Height, x, y, rDot)
+		if !ok {
+			t.Errorf("no dot near %s", p.ID)
+			continue
+		}
+		n++
+		worst = math.Max(worst, math.Hypot(mx-x, my-y))
+	}
+	if n < 5 {
+		t.Fatalf("only %d dots checked", n)
+	}
+	// same bound as the still frames: the shift is exact, only sampling remains
+	if worst >= 0.1 {
+		t.Errorf("largest dot centre error with camera shake %.3f px (want < 0.1)", worst)
+	}
+	t.Logf("frame %d: shake %v px, %d dots, largest centre error %.3f px", f, tr.ShakePX[f], n, worst)
+}
+
+// TestCordHidesMarkers checks the truth's hidden flags against the pixels: a
+// dot the cord does not touch is drawn exactly as without a cord.
+func TestCordHidesMarkers(t *testing.T) {
+	s := short()
+	s.Noise, s.Flicker, s.BlurPX = 0, 0, 0
+	s.Frames = 60
+	s.CordMM = 4
+	with, err := NewRenderer(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer with.Close()
+	s.CordMM = 0
+	without, err := NewRenderer(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer without.Close()
+	tr := with.Truth()
+	a, b := gocv.NewMat(), gocv.NewMat()
+	defer a.Close()
+	defer b.Close()
+	hiddenSeen := 0
+	for _, f := range []int{0, 15, 30, 45} {
+		if err := with.Frame(f, &a); err != nil {
+			t.Fatal(err)
+		}
+		if err := without.Frame(f, &b); err != nil {
+			t.Fatal(err)
+		}
+		pa, _ := a.DataPtrUint8()
+		pb, _ := b.DataPtrUint8()
+		ps := with.m.pose(float64(f))
+		for i, p := range tr.Points {
+			if !p.Marker {
+				continue
+			}
+			_, _, d := with.m.cam.project(with.m.pointPos(i, ps))
+			rDot := s.MarkerMM / 2 * s.FocalPX / d
+			x, y := p.PX[f][0], p.PX[f][1]
+			changed := false
+			for py := int(y - rDot); py <= int(y+rDot)+1; py++ {
+				for px := int(x - rDot); px <= int(x+rDot)+1; px++ {
+					if math.Hypot(float64(px)-x, float64(py)-y) > rDot-1 {
+						continue
+					}
+					k := (py*s.Width + px) * 3
+					if pa[k] != pb[k] || pa[k+1] != pb[k+1] || pa[k+2] != pb[k+2] {
+						changed = true
+					}
+				}
+			}
+			if p.Hidden[f] {
+				hiddenSeen++
+			} else if changed {
+				t.Errorf("frame %d: %s is not hidden in the truth but the cord changes its dot", f, p.ID)
+			}
+		}
+	}
+	if hiddenSeen == 0 {
+		t.Error("the cord hid no marker in the frames checked")
+	}
+	t.Logf("%d hidden marker-frames among the frames checked", hiddenSeen)
+}

@@ -114,6 +114,7 @@ var (
 	paperColour = [3]float32{222, 226, 229}
 	dotColour   = [3]float32{30, 27, 33}
 	blockColour = [3]float32{92, 118, 150}
+	cordColour  = [3]float32{48, 58, 70}
 )
 
 // renderBackground fills bg (BGR, float, W*H*3) with the static scene: a

@@ -63,6 +63,9 @@ type Truth struct {
 	LoadAtBreakG float64 `json:"load_at_break_g"`
 	// Efficiency is the peak load over the tower's mass.
 	Efficiency float64 `json:"efficiency"`
+	// ShakePX is the camera shake's image shift per frame (already in the
+	// points' px); absent when the camera is still.
+	ShakePX [][2]float64 `json:"shake_px,omitempty"`
 }
 
 // TruthCamera describes the camera: intrinsics and the world-to-camera
@@ -100,8 +103,12 @@ type TruthPoint struct {
 	// Marker is true when a marker sticker is drawn on the point (the faces
 	// toward the camera); only those points are in marks.yaml.
 	Marker bool `json:"marker"`
-	// PX is the position in pixels in every frame (x right, y down).
+	// PX is the position in pixels in every frame (x right, y down),
+	// camera shake included.
 	PX [][2]float64 `json:"px"`
+	// Hidden is true in frames where the swinging cord covers part of the
+	// point's dark dot; absent when there is no cord.
+	Hidden []bool `json:"hidden,omitempty"`
 }
 
 // TruthLevel is one level's motion; all series have one value per frame.
@@ -172,6 +179,19 @@ func LoadTruth(path string) (*Truth, error) {
 
 func round6(v float64) float64 { return math.Round(v*1e6) / 1e6 }
 
+// cordCovers reports whether the cord at time t covers part of a dot of
+// radius r px centred at (x, y) (both without camera shake).
+func (m *model) cordCovers(t, x, y, r float64) bool {
+	b, tp := m.cordAt(t)
+	xb, yb, db := m.cam.project(b)
+	xt, yt, _ := m.cam.project(tp)
+	hw := m.s.CordMM / 2 * m.cam.f / db
+	dx, dy := xt-xb, yt-yb
+	l := math.Hypot(dx, dy)
+	dist := math.Abs((x-xb)*dy-(y-yb)*dx) / l
+	return dist < hw+r
+}
+
 // computeTruth evaluates the geometry of every frame.
 func (m *model) computeTruth(load *loadModel) *Truth {
 	s := m.s
@@ -217,11 +237,26 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 		t.Members = append(t.Members, TruthMember{ID: mb.id, Kind: mb.kind, Points: mb.pointIDs,
 			LengthMM: round6(mb.rest), ChordMM: make([]float64, nf), BowMM: make([]float64, nf)})
 	}
+	if s.ShakePX > 0 {
+		t.ShakePX = make([][2]float64, nf)
+	}
+	if s.CordMM > 0 {
+		for i := range t.Points {
+			t.Points[i].Hidden = make([]bool, nf)
+		}
+	}
 	for f := 0; f < nf; f++ {
 		ps := m.pose(float64(f))
+		dx, dy := m.shake(float64(f))
+		if t.ShakePX != nil {
+			t.ShakePX[f] = [2]float64{round6(dx), round6(dy)}
+		}
 		for i := range m.points {
-			x, y, _ := m.cam.project(m.pointPos(i, ps))
-			t.Points[i].PX[f] = [2]float64{round6(x), round6(y)}
+			x, y, d := m.cam.project(m.pointPos(i, ps))
+			t.Points[i].PX[f] = [2]float64{round6(x + dx), round6(y + dy)}
+			if s.CordMM > 0 {
+				t.Points[i].Hidden[f] = m.cordCovers(float64(f), x, y, s.MarkerMM/2*m.cam.f/d)
+			}
 		}
 		for k := 0; k <= m.n; k++ {
 			var c, c0 vec3

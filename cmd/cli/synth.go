@@ -96,6 +96,8 @@ The same --seed gives the same clip, bit for bit.` + exitHelp,
 	f.Float64Var(&s.BlurPX, "blur-px", s.BlurPX, "lens blur, standard deviation in px")
 	f.Float64Var(&s.MassG, "mass-g", s.MassG, "tower mass, g")
 	f.Float64Var(&s.PeakLoadG, "peak-load-g", s.PeakLoadG, "load at collapse (the log's peak), g")
+	f.Float64Var(&s.CordMM, "cord-mm", s.CordMM, "thickness of a dark cord swinging between the camera and the tower, hiding markers now and then, mm; 0 = no cord")
+	f.Float64Var(&s.ShakePX, "shake-px", s.ShakePX, "peak camera shake when the falling load hits the floor, px; 0 = still camera")
 	f.BoolVar(&s.SkipMP4, "no-mp4", s.SkipMP4, "do not write tower.mp4 even when ffmpeg is installed")
 	return cmd
 }
