@@ -3,6 +3,9 @@ package capture
 import (
 	"errors"
 	"io"
+	"os/exec"
+	"path/filepath"
+	"strings"
 	"strconv"
 	"testing"
 
@@ -41,15 +44,17 @@ func readAll(t *testing.T, src Source) (map[int]string, []int) {
 
 func TestReadMatchesFFmpeg(t *testing.T) {
 	tests := []struct {
-		name  string
-		clip  func(testing.TB) string
-		codec string
+		name        string
+		clip        func(testing.TB) string
+		codec       string
+		countSource string
 	}{
-		{"h264 mp4, B-frames, sparse keyframes", sparseH264, "avc1"},
-		{"mjpeg avi", mjpegAVI, "MJPG"},
-		{"mpeg4 mov", func(t testing.TB) string {
-			return sharedClip(t, "clip.mov", "testsrc2=size=176x144:rate=24", 40, "-c:v", "mpeg4", "-q:v", "3")
-		}, "mp4v"},
+		{"h264 mp4, B-frames, sparse keyframes", sparseH264, "avc1", "container"},
+		{"mjpeg avi", mjpegAVI, "MJPG", "container"},
+		{"mpeg4 mov at 29.97 fps", mpeg4MOV, "mp4v", "container"},
+		{"h265 mp4", hevcMP4, "hev1", "container"},
+		// A raw H.264 stream has no container, so no stated frame count.
+		{"raw h264, no frame count", rawH264, "h264", "counted"},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
@@ -65,6 +70,9 @@ func TestReadMatchesFFmpeg(t *testing.T) {
 			ff := ffmpegFrames(t, clip)
 			if n := ffprobeCount(t, clip); info.FrameCount != n || len(ff) != n {
 				t.Fatalf("frame count %d (%s), ffprobe counted %d, framemd5 has %d", info.FrameCount, info.CountSource, n, len(ff))
+			}
+			if info.CountSource != tt.countSource {
+				t.Errorf("count source %q, want %q", info.CountSource, tt.countSource)
 			}
 			if info.Codec != tt.codec {
 				t.Errorf("codec %q, want %q", info.Codec, tt.codec)
@@ -89,9 +97,9 @@ func TestReadMatchesFFmpeg(t *testing.T) {
 }
 
 func TestSeekExact(t *testing.T) {
-	for _, clipFn := range []func(testing.TB) string{sparseH264, mjpegAVI} {
+	for _, clipFn := range []func(testing.TB) string{sparseH264, mjpegAVI, rawH264, mpeg4MOV} {
 		clip := clipFn(t)
-		t.Run(clip, func(t *testing.T) {
+		t.Run(filepath.Base(clip), func(t *testing.T) {
 			ff := ffmpegFrames(t, clip)
 			n := len(ff)
 			src, err := Open(clip, Options{})
@@ -104,7 +112,7 @@ func TestSeekExact(t *testing.T) {
 			// Backward, far forward, near forward, on and around keyframes
 			// (every 50th frame in the H.264 clip), the last frames (flushed
 			// from the decoder without timestamps), and twice the same frame.
-			targets := []int{n - 1, 0, 77, 50, 49, 51, 100, 3, 120, 99, 99, n - 2, 76, 75, 1, 0, n - 3, 30, 31, 40, 52}
+			targets := []int{n - 1, 0, 77, 50, 49, 51, 100, 3, 120, 99, 99, n - 2, 76, 75, 1, 0, n - 3, 30, 31, 40, 52, 21, 20}
 			for _, f := range targets {
 				if f >= n {
 					continue
@@ -136,3 +144,25 @@ func TestSeekExact(t *testing.T) {
 }
 
 func itoa(i int) string { return strconv.Itoa(i) }
+
+// hevcMP4 is an H.265 clip (skipped when ffmpeg has no libx265).
+func hevcMP4(t testing.TB) string {
+	needFFmpeg(t)
+	if out, _ := exec.Command("ffmpeg", "-hide_banner", "-encoders").Output(); !strings.Contains(string(out), "libx265") {
+		t.Skip("ffmpeg has no libx265 encoder")
+	}
+	return sharedClip(t, "hevc.mp4", "testsrc2=size=192x128:rate=25", 60,
+		"-c:v", "libx265", "-x265-params", "log-level=error:keyint=30", "-pix_fmt", "yuv420p", "-preset", "ultrafast")
+}
+
+// rawH264 is the sparse H.264 clip as a bare Annex B stream, with no
+// container and so no frame count or timestamps.
+func rawH264(t testing.TB) string {
+	return sharedClip(t, "raw.h264", "testsrc2=size=320x240:rate=30", 150,
+		"-c:v", "libx264", "-g", "50", "-keyint_min", "50", "-sc_threshold", "0", "-bf", "2", "-pix_fmt", "yuv420p", "-preset", "veryfast", "-f", "h264")
+}
+
+// mpeg4MOV is an MPEG-4 part 2 clip in a QuickTime file at 30000/1001 fps.
+func mpeg4MOV(t testing.TB) string {
+	return sharedClip(t, "clip.mov", "testsrc2=size=176x144:rate=30000/1001", 60, "-c:v", "mpeg4", "-q:v", "3", "-g", "20")
+}
