@@ -5,8 +5,8 @@ import (
 	"io"
 	"os/exec"
 	"path/filepath"
-	"strings"
 	"strconv"
+	"strings"
 	"testing"
 
 	"gocv.io/x/gocv"
