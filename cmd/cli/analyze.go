@@ -184,6 +184,7 @@ func analyzeRun(opts *analyzeOptions) error {
 			finish()
 			fmt.Fprintf(errOut, "warning: %s\n", msg)
 		},
+		Note: func(msg string) { status("%s", msg) },
 	}
 	res, err := analysis.Run(cfg, prog)
 	finish()
@@ -194,9 +195,6 @@ func analyzeRun(opts *analyzeOptions) error {
 			return &InputError{Err: err}
 		}
 		return err
-	}
-	if res.LoadLog != nil {
-		status("load log: %s", res.LoadLog.Detected)
 	}
 	printSummary(opts, res)
 	return nil

@@ -78,6 +78,9 @@ type Progress struct {
 	Frames func(done, total int)
 	// Warn is called with each warning as it is found.
 	Warn func(msg string)
+	// Note is called with facts worth printing as they are found, such as
+	// the columns and units detected in the load log.
+	Note func(msg string)
 }
 
 // InputError is an input that cannot be used: the clip, the marks, the load
@@ -147,6 +150,9 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 			return nil, err
 		}
 		log = l
+		if prog.Note != nil {
+			prog.Note(fmt.Sprintf("load log %s: %s", cfg.Load, l.Detected))
+		}
 		logFacts = &report.LoadLogFacts{Path: cfg.Load, Detected: l.Detected, Samples: l.Len(), PeriodS: l.PeriodS, SkippedLines: []int{}}
 		for _, w := range warns {
 			if w.Line > 0 {

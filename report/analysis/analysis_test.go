@@ -190,9 +190,14 @@ func TestRunReplacesOnlyWithForce(t *testing.T) {
 		t.Fatal("existing folder touched")
 	}
 	cfg.Force = true
-	res, err := Run(cfg, Progress{})
+	var notes []string
+	res, err := Run(cfg, Progress{Note: func(m string) { notes = append(notes, m) }})
 	if err != nil {
 		t.Fatal(err)
+	}
+	// What was detected in the log is reported as it is found.
+	if len(notes) == 0 || !strings.Contains(notes[0], `"time_ms" in ms`) || !strings.Contains(notes[0], `"load_g" in g`) {
+		t.Errorf("notes %q", notes)
 	}
 	if _, err := os.Stat(marker); !os.IsNotExist(err) {
 		t.Error("old report not replaced")
