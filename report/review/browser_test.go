@@ -311,6 +311,20 @@ func TestReviewPageInChromium(t *testing.T) {
 	if err != nil {
 		t.Errorf("the reopened page does not show the saved marks: %v", err)
 	}
+
+	// A marks file broken by hand is never overwritten from the page.
+	broken := "points:\n  - id: A\n    px: [1, 1]\n  - id: A\n    px: [2, 2]\n"
+	write(t, mk, broken)
+	do(t, ctx, "reload broken", chromedp.Navigate(base))
+	waitFrame(t, ctx, 0)
+	do(t, ctx, "try to save", chromedp.KeyEvent("s", chromedp.KeyModifiers(chromedp.ModifierCtrl)),
+		chromedp.Poll[chromedp.Void](`document.getElementById("status").textContent.includes("fix or move it")`))
+	if !eval[bool](t, ctx, `document.getElementById("saveMarks").disabled`) {
+		t.Error("save stays enabled over a marks file that could not be read")
+	}
+	if b, _ := os.ReadFile(mk); string(b) != broken {
+		t.Error("the page overwrote a marks file it could not read")
+	}
 }
 
 // TestReviewScreenshots saves screenshots of the page in a few states into

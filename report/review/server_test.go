@@ -560,3 +560,21 @@ func TestNewNamesBadReportFiles(t *testing.T) {
 		})
 	}
 }
+
+func TestServerRefusesToReadBrokenMarksLater(t *testing.T) {
+	dir := t.TempDir()
+	clip := makeClip(t, dir)
+	mk := filepath.Join(dir, "m.yaml")
+	_, base := startServer(t, Config{Clip: clip, Marks: mk, CaptureFPS: clipFPS})
+	// The file is broken by hand while the server runs.
+	write(t, mk, "points:\n  - id: A\n    px: [1, 1]\n  - id: A\n    px: [2, 2]\n")
+	resp, err := http.Get(base + "api/marks")
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	if resp.StatusCode != http.StatusUnprocessableEntity || !strings.Contains(string(b), "line 4") {
+		t.Errorf("broken marks: %d %s, want 422 naming line 4", resp.StatusCode, b)
+	}
+}

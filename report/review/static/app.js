@@ -104,8 +104,11 @@ async function start() {
   try {
     S.marks = normaliseMarks(await api("/api/marks"));
   } catch (e) {
-    status("marks: " + e.message, true);
+    // Never overwrite a marks file that could not be read.
+    status("marks file could not be read, so saving is off: " + e.message, true);
     S.marks = normaliseMarks({});
+    S.marksBroken = true;
+    $("saveMarks").disabled = true;
   }
   if (!I.has_tracks) {
     $("ovPoints").disabled = true;
@@ -159,6 +162,7 @@ function fetchFrame() {
     if (img.naturalWidth && !img.style.width) layout();
     draw();
     if (S.frame !== S.shown) fetchFrame();
+    else if (!S.playing && want + 1 < S.info.frames) prefetch(want + 1);
   };
   pic.onerror = () => {
     S.loading = false;
@@ -169,6 +173,14 @@ function fetchFrame() {
     if (S.frame !== want) fetchFrame();
   };
   pic.src = "/api/frame/" + want + ".jpg";
+}
+
+// prefetch asks for a frame ahead so that the server decodes it while the
+// user looks at this one; stepping on is then immediate.
+function prefetch(n) {
+  const p = new Image();
+  p.src = "/api/frame/" + n + ".jpg";
+  needOverlay(n);
 }
 
 function needOverlay(n) {
@@ -847,6 +859,10 @@ function renderMarks() {
 }
 
 async function saveMarks() {
+  if (S.marksBroken) {
+    status("the marks file could not be read when the page opened; fix or move it and reload before saving", true);
+    return;
+  }
   readTower();
   try {
     const saved = await api("/api/marks", {
