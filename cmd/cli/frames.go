@@ -124,7 +124,9 @@ func frameFileName(frame int, tb capture.Timebase) string {
 }
 
 func framesRun(opts *framesOptions) error {
-	src, err := capture.Open(opts.clip, capture.Options{ImageFPS: opts.imageFPS})
+	count, countDone := newProgress(opts.io, opts.quiet, 0, "counting frames of "+opts.clip)
+	src, err := capture.Open(opts.clip, capture.Options{ImageFPS: opts.imageFPS, Progress: count})
+	countDone()
 	if err != nil {
 		return err
 	}

@@ -109,7 +109,9 @@ func checkRateFlags(cmd *cobra.Command, captureFPS, imageFPS float64) error {
 }
 
 func probeRun(opts *probeOptions) error {
-	src, err := capture.Open(opts.clip, capture.Options{ImageFPS: opts.imageFPS})
+	update, finish := newProgress(opts.io, opts.quiet, 0, "counting frames of "+opts.clip)
+	src, err := capture.Open(opts.clip, capture.Options{ImageFPS: opts.imageFPS, Progress: update})
+	finish()
 	if err != nil {
 		return err
 	}

@@ -121,12 +121,28 @@ func TestProbeBadInputs(t *testing.T) {
 	if len(sums) != 39 || lost < 0 {
 		t.Fatalf("ffmpeg decoded %d of 40 frames of the damaged clip", len(sums))
 	}
+	// A folder of stills with frame 3 (shot_4.png) missing, and one with
+	// a still of another size.
+	stills := func(name string) string {
+		d := filepath.Join(dir, name)
+		os.Mkdir(d, 0o755)
+		capRun(t, "ffmpeg", "-v", "error", "-f", "lavfi", "-i", "testsrc2=size=64x48:rate=10", "-frames:v", "8",
+			"-start_number", "1", filepath.Join(d, "shot_%d.png"))
+		return d
+	}
+	gap := stills("gap")
+	os.Remove(filepath.Join(gap, "shot_4.png"))
+	mixed := stills("mixed")
+	capRun(t, "ffmpeg", "-v", "error", "-y", "-f", "lavfi", "-i", "testsrc2=size=80x48", "-frames:v", "1", filepath.Join(mixed, "shot_6.png"))
 	tests := []struct {
 		name string
 		args []string
 		code int
 		want []string
 	}{
+		{"stills with a gap", []string{"probe", gap, "--image-fps", "1000"}, ExitBadInput,
+			[]string{"numbering skips from shot_3.png to shot_5.png", "1 frame missing or undecodable (3)"}},
+		{"stills of mixed sizes", []string{"probe", mixed}, ExitBadInput, []string{"shot_6.png is 80x48", "mixed frame sizes"}},
 		{"missing file", []string{"probe", filepath.Join(dir, "none.mp4")}, ExitBadInput, []string{"none.mp4", "no such file"}},
 		{"not a video", []string{"probe", notVideo}, ExitBadInput, []string{notVideo, "not a readable video"}},
 		{"no video frames", []string{"probe", sound}, ExitBadInput, []string{sound}},
