@@ -197,6 +197,7 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 			w := 320
 			h := int(math.Round(float64(work.Rows()) * float64(w) / float64(work.Cols())))
 			gocv.Resize(work, &t, image.Pt(w, h), 0, 0, gocv.InterpolationArea)
+			drawStamp(&t, stamp) // again, readable at thumbnail size
 			if thumbs[i] != nil {
 				thumbs[i].Close()
 			}
@@ -376,11 +377,24 @@ func (o *Overlay) Draw(img *gocv.Mat, frame int, stamp string) {
 			}
 		}
 	}
-	if stamp != "" {
-		fs := 0.6 * scale
-		sz := gocv.GetTextSize(stamp, gocv.FontHersheySimplex, fs, thick)
-		bar := image.Rect(0, 0, w, sz.Y+int(16*scale))
-		gocv.Rectangle(img, bar, color.RGBA{}, -1)
-		gocv.PutText(img, stamp, image.Pt(int(8*scale), sz.Y+int(8*scale)), gocv.FontHersheySimplex, fs, color.RGBA{R: 255, G: 255, B: 255}, thick)
+	drawStamp(img, stamp)
+}
+
+// drawStamp writes the stamp in white on a black bar along the top, with the
+// text shrunk as needed to fit the width.
+func drawStamp(img *gocv.Mat, stamp string) {
+	if stamp == "" {
+		return
 	}
+	w := img.Cols()
+	fs := math.Max(0.35, 0.6*float64(w)/1280)
+	thick := int(math.Max(1, math.Round(fs*2.5)))
+	sz := gocv.GetTextSize(stamp, gocv.FontHersheySimplex, fs, thick)
+	if avail := w - 8; sz.X > avail && sz.X > 0 {
+		fs *= float64(avail) / float64(sz.X)
+		sz = gocv.GetTextSize(stamp, gocv.FontHersheySimplex, fs, thick)
+	}
+	pad := max(3, sz.Y/2)
+	gocv.Rectangle(img, image.Rect(0, 0, w, sz.Y+2*pad), color.RGBA{}, -1)
+	gocv.PutText(img, stamp, image.Pt(4, sz.Y+pad), gocv.FontHersheySimplex, fs, color.RGBA{R: 255, G: 255, B: 255}, thick)
 }
