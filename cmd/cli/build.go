@@ -387,7 +387,7 @@ func buildShowRun(opts *buildShowOptions) error {
 			fmt.Fprintf(w, "  account:      %s\n", t.Account)
 		}
 		if a := t.Alignment; a != nil {
-			fmt.Fprintf(w, "  alignment:    %s, video = log + %.3f s (± %.3f s)\n", a.Method, a.OffsetS, a.UncertaintyS)
+			fmt.Fprintf(w, "  alignment:    %s, video time = log time %+.3f s (± %.3f s)\n", a.Method, a.OffsetS, a.UncertaintyS)
 		}
 		fmt.Fprintf(w, "  files:        %d\n", len(t.Files))
 		for _, f := range t.Files {
@@ -820,6 +820,9 @@ func buildImportRun(opts *buildImportOptions) error {
 type buildCheckOptions struct {
 	IO *IOStreams
 	G  *buildGlobal
+
+	// Prune removes objects no test uses (older than records.PruneGrace).
+	Prune bool
 }
 
 func newBuildCheckCmd(io *IOStreams, g *buildGlobal, runF func(*buildCheckOptions) error) *cobra.Command {
@@ -832,10 +835,15 @@ func newBuildCheckCmd(io *IOStreams, g *buildGlobal, runF func(*buildCheckOption
 		Short: "Verify the database and the SHA-256 of every evidence file",
 		Long: `Check runs SQLite's integrity and foreign-key checks and re-hashes every
 evidence file in the object store, listing missing and corrupt files. It
-exits with status 3 when it finds a problem.` + exitHelp,
+exits with status 3 when it finds a problem.
+
+Removed builds leave their evidence files in the object store; --prune
+deletes the files no test uses (only those older than an hour, so an attach
+running at the same time is safe).` + exitHelp,
 		Args: exactArgs(0),
 		RunE: func(cmd *cobra.Command, args []string) error { return runF(opts) },
 	}
+	cmd.Flags().BoolVar(&opts.Prune, "prune", false, "delete evidence files no test uses")
 	return cmd
 }
 
@@ -857,5 +865,13 @@ func buildCheckRun(opts *buildCheckOptions) error {
 			fmt.Fprintln(w, "ok")
 		}
 	}
-	return err
+	if err != nil || !opts.Prune {
+		return err
+	}
+	n, size, err := s.Prune(records.PruneGrace)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(opts.IO.ErrOut, "Pruned %d unused file(s), %d bytes\n", n, size)
+	return nil
 }

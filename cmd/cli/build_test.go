@@ -165,7 +165,7 @@ func TestBuildCommandsEndToEnd(t *testing.T) {
 		t.Errorf("show --json: %+v", bt)
 	}
 	out = mustRun("show", "T7")
-	for _, want := range []string{"bracing:  diagonal", "legs: balsa 3x3 mm", "failure mode: brace_buckling", "efficiency:   420.6"} {
+	for _, want := range []string{"bracing:  diagonal", "legs: balsa 3x3 mm", "failure mode: brace_buckling", "efficiency:   420.6", "video time = log time +0.500 s"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("show lacks %q:\n%s", want, out)
 		}
@@ -263,6 +263,10 @@ func TestBuildCommandsEndToEnd(t *testing.T) {
 		t.Errorf("remove without a terminal or --yes: exit %d, want %d", code, ExitUsage)
 	}
 	mustRun("remove", "H2", "--yes")
+	io, _, errBuf = testIO()
+	if code := Run(io, []string{"build", "--db", db, "check", "--prune"}); code != ExitOK || !strings.Contains(errBuf.String(), "Pruned 0 unused file(s)") {
+		t.Errorf("check --prune right after removing: exit %d, %s (fresh objects are kept)", code, errBuf)
+	}
 	if out := mustRun("list", "--json"); strings.TrimSpace(out) != "[]" {
 		t.Errorf("after removing all: %s", out)
 	}

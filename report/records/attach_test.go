@@ -281,3 +281,44 @@ func TestObjectsWithoutRecordAreHarmless(t *testing.T) {
 		t.Errorf("Check = %+v, %v; want 1 unreferenced object and no problems", rep, err)
 	}
 }
+
+func TestPruneRemovesOnlyOldUnusedObjects(t *testing.T) {
+	s := newStore(t)
+	for _, id := range []string{"T7", "T8"} {
+		if _, err := s.Add(sampleBuild(id)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	// Same seed: T8's report shares its PNGs and report.html with T7's.
+	if _, err := s.Attach("T7", fakeReport(t, t.TempDir(), 1, 9000, "brace_buckling", "AB-d1")); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.Attach("T8", fakeReport(t, t.TempDir(), 1, 7000, "tower_twist", "")); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.Remove("T7"); err != nil {
+		t.Fatal(err)
+	}
+	leftover := filepath.Join(s.ObjectsDir(), ".incoming-123")
+	stranger := filepath.Join(s.ObjectsDir(), "README")
+	os.WriteFile(leftover, []byte("partial"), 0o644)
+	os.WriteFile(stranger, []byte("not ours"), 0o644)
+	rep, err := s.Check()
+	if err != nil || rep.Unreferenced != 1 { // only T7's report.json is unshared
+		t.Fatalf("before prune: %+v, %v", rep, err)
+	}
+	if n, _, err := s.Prune(PruneGrace); err != nil || n != 0 {
+		t.Errorf("prune within the grace period removed %d (%v)", n, err)
+	}
+	n, size, err := s.Prune(0)
+	if err != nil || n != 2 || size == 0 {
+		t.Errorf("Prune(0) = %d files, %d bytes, %v; want the unused object and the leftover", n, size, err)
+	}
+	if _, err := os.Stat(stranger); err != nil {
+		t.Errorf("prune removed a file that is not an object: %v", err)
+	}
+	rep, err = s.Check()
+	if err != nil || rep.Unreferenced != 0 || rep.Objects != 4 {
+		t.Errorf("after prune: %+v, %v; want T8's 4 objects intact", rep, err)
+	}
+}

@@ -6,8 +6,10 @@ import (
 	"errors"
 	"fmt"
 	"io/fs"
+	"os"
 	"path/filepath"
 	"strings"
+	"time"
 )
 
 // Problem is one thing Check found wrong.
@@ -137,7 +139,7 @@ func (s *Store) Check() (*CheckReport, error) {
 	}
 	// Count objects nobody refers to.
 	filepath.WalkDir(s.objects, func(p string, d fs.DirEntry, err error) error {
-		if err != nil || d.IsDir() || strings.HasPrefix(d.Name(), ".") {
+		if err != nil || d.IsDir() || !hashPattern.MatchString(d.Name()) {
 			return nil
 		}
 		if _, ok := verdict[d.Name()]; !ok {
@@ -166,4 +168,62 @@ func (s *Store) checkObject(sum string) (kind, detail string) {
 		return "corrupt", fmt.Sprintf("content hashes to %s, recorded %s", got, sum)
 	}
 	return "", ""
+}
+
+// PruneGrace is how old an unreferenced object must be before Prune removes
+// it: younger ones may belong to an attach or import still in progress.
+const PruneGrace = time.Hour
+
+// Prune deletes objects (and leftover temporary files) that no test refers
+// to and that were last written more than grace ago. It returns how many
+// files it removed and their total size.
+func (s *Store) Prune(grace time.Duration) (int, int64, error) {
+	used := map[string]bool{}
+	err := s.read(context.Background(), func(tx *sql.Tx) error {
+		rows, err := tx.Query(`SELECT DISTINCT sha256 FROM files`)
+		if err != nil {
+			return err
+		}
+		defer rows.Close()
+		for rows.Next() {
+			var sum string
+			if err := rows.Scan(&sum); err != nil {
+				return err
+			}
+			used[sum] = true
+		}
+		return rows.Err()
+	})
+	if err != nil {
+		return 0, 0, fmt.Errorf("records: prune %s: %w", s.objects, err)
+	}
+	var n int
+	var size int64
+	cutoff := time.Now().Add(-grace)
+	err = filepath.WalkDir(s.objects, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			if errors.Is(err, fs.ErrNotExist) {
+				return nil
+			}
+			return err
+		}
+		name := d.Name()
+		if d.IsDir() || used[name] || !(hashPattern.MatchString(name) || strings.HasPrefix(name, ".incoming-")) {
+			return nil
+		}
+		fi, err := os.Stat(p) // fresh stat: an attach may have just touched it
+		if err != nil || fi.ModTime().After(cutoff) {
+			return nil
+		}
+		if err := os.Remove(p); err != nil {
+			return err
+		}
+		n++
+		size += fi.Size()
+		return nil
+	})
+	if err != nil {
+		return n, size, fmt.Errorf("records: prune %s: %w", s.objects, err)
+	}
+	return n, size, nil
 }

@@ -65,7 +65,8 @@ func (s *Store) Export(buildID string, w io.Writer) error {
 	if err != nil {
 		return err
 	}
-	mw, err := zw.Create(ArchiveManifest)
+	stamp, _ := time.Parse(time.RFC3339, a.ExportedAt)
+	mw, err := zw.CreateHeader(&zip.FileHeader{Name: ArchiveManifest, Method: zip.Deflate, Modified: stamp})
 	if err != nil {
 		return err
 	}
@@ -74,7 +75,7 @@ func (s *Store) Export(buildID string, w io.Writer) error {
 	}
 	for _, t := range a.Tests {
 		for _, f := range t.Files {
-			if err := s.copyObjectTo(zw, archiveName(t.Seq, f.Path), f.SHA256); err != nil {
+			if err := s.copyObjectTo(zw, archiveName(t.Seq, f.Path), f.SHA256, stamp); err != nil {
 				return fmt.Errorf("export %s test %d %s: %w", buildID, t.Seq, f.Path, err)
 			}
 		}
@@ -83,13 +84,13 @@ func (s *Store) Export(buildID string, w io.Writer) error {
 }
 
 // copyObjectTo adds the object as a zip entry, checking its hash on the way.
-func (s *Store) copyObjectTo(zw *zip.Writer, name, sum string) error {
+func (s *Store) copyObjectTo(zw *zip.Writer, name, sum string, stamp time.Time) error {
 	f, err := s.OpenObject(sum)
 	if err != nil {
 		return err
 	}
 	defer f.Close()
-	w, err := zw.Create(name)
+	w, err := zw.CreateHeader(&zip.FileHeader{Name: name, Method: zip.Deflate, Modified: stamp})
 	if err != nil {
 		return err
 	}

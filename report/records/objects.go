@@ -11,6 +11,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"time"
 )
 
 var hashPattern = regexp.MustCompile(`^[0-9a-f]{64}$`)
@@ -48,6 +49,10 @@ func (s *Store) putObject(r io.Reader) (sum string, size int64, err error) {
 	sum = hex.EncodeToString(h.Sum(nil))
 	dst := s.objectPath(sum)
 	if ok, _ := fileHashIs(dst, sum); ok {
+		// Mark the object as fresh so Prune's grace period protects it
+		// until the record that uses it commits.
+		t := time.Now()
+		os.Chtimes(dst, t, t)
 		return sum, size, nil
 	}
 	if err := tmp.Sync(); err != nil {
