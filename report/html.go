@@ -122,16 +122,16 @@ footer{margin-top:2em;font-size:.85em;color:#6b7680}
 <p class="safety" id="safety">{{.Safety}}</p>
 {{if .R.Warnings}}<h2>Warnings</h2>
 <ul class="warn">{{range .R.Warnings}}<li>{{.}}</li>{{end}}</ul>{{end}}
-<h2>Events</h2>
-<table id="events"><tr><th class="l">Event</th><th class="l">Member</th><th>Frame</th><th>Time (s)</th><th>Load</th><th class="l">What was seen</th></tr>
-{{range .R.Events}}<tr><td class="l">{{mode .Kind}}</td><td class="l">{{.Member}}</td><td>{{.Frame}}</td><td>{{f4 .TimeS}}</td><td>{{g .LoadG}}</td><td class="l">{{.Detail}}</td></tr>
-{{else}}<tr><td class="l" colspan="6">No events found.</td></tr>{{end}}</table>
 {{if .Plots}}<h2>Plots</h2>
 {{range .Plots}}<figure><img src="{{.Src}}" alt="{{.Caption}}"><figcaption>{{.Caption}}{{if .SVG}} (vector copy: <code>{{.SVG}}</code>){{end}}</figcaption></figure>
 {{end}}{{end}}
 {{if .Evidence}}<h2>Evidence frames</h2>
 <div class="evidence">{{range .Evidence}}<figure><img src="{{.Src}}" alt="{{.Caption}}"><figcaption>{{.Caption}}</figcaption></figure>
 {{end}}</div>{{end}}
+<h2>Events</h2>
+<table id="events"><tr><th class="l">Event</th><th class="l">Member</th><th>Frame</th><th>Time (s)</th><th>Load</th><th class="l">What was seen</th></tr>
+{{range .R.Events}}<tr><td class="l">{{mode .Kind}}</td><td class="l">{{.Member}}</td><td>{{.Frame}}</td><td>{{f4 .TimeS}}</td><td>{{g .LoadG}}</td><td class="l">{{.Detail}}</td></tr>
+{{else}}<tr><td class="l" colspan="6">No events found.</td></tr>{{end}}</table>
 <h2>Levels</h2>
 <table id="levels"><tr><th>Level</th><th>Max twist (°)</th><th>Max sway (mm)</th><th class="l">Note</th></tr>
 {{range .R.Levels}}<tr><td>{{.Level}}</td><td>{{if .TwistObservable}}{{f2 .MaxTwistDeg}}{{else}}–{{end}}</td><td>{{f2 .MaxSwayMM}}</td><td class="l">{{.Note}}</td></tr>
