@@ -44,6 +44,7 @@ func rotZ(p vec3, a float64) vec3 {
 // pixel centres lie at integer coordinates.
 type camera struct {
 	f, cx, cy float64
+	k1        float64 // radial distortion, OpenCV's model
 	rows      [3]vec3
 	pos       vec3
 }
@@ -56,6 +57,7 @@ func newCamera(s Scenario, target vec3) camera {
 	right := fwd.cross(vec3{0, 0, 1}).unit()
 	down := fwd.cross(right)
 	return camera{
+		k1:   s.K1,
 		f:    s.FocalPX,
 		cx:   float64(s.Width-1) / 2,
 		cy:   float64(s.Height-1) / 2,
@@ -69,12 +71,26 @@ func newCamera(s Scenario, target vec3) camera {
 func (c *camera) project(p vec3) (x, y, depth float64) {
 	d := p.sub(c.pos)
 	xc, yc, zc := c.rows[0].dot(d), c.rows[1].dot(d), c.rows[2].dot(d)
-	return c.f*xc/zc + c.cx, c.f*yc/zc + c.cy, zc
+	xn, yn := xc/zc, yc/zc
+	if c.k1 != 0 {
+		k := 1 + c.k1*(xn*xn+yn*yn)
+		xn, yn = xn*k, yn*k
+	}
+	return c.f*xn + c.cx, c.f*yn + c.cy, zc
 }
 
 // ray returns the unit direction of the ray through pixel (x, y).
 func (c *camera) ray(x, y float64) vec3 {
 	a, b := (x-c.cx)/c.f, (y-c.cy)/c.f
+	if c.k1 != 0 {
+		// undo the radial distortion by fixed-point iteration
+		ua, ub := a, b
+		for i := 0; i < 20; i++ {
+			k := 1 + c.k1*(ua*ua+ub*ub)
+			ua, ub = a/k, b/k
+		}
+		a, b = ua, ub
+	}
 	return c.rows[0].scale(a).add(c.rows[1].scale(b)).add(c.rows[2]).unit()
 }
 

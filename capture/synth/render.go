@@ -262,6 +262,26 @@ func (r *Renderer) blurSamples(i int) int {
 	return int(math.Min(6, math.Ceil(v/0.7)))
 }
 
+// subdivide inserts points so that no piece of a polyline is longer than
+// step mm, for lines that a distorting lens bends.
+func subdivide(lines [][]shapePt, step float64) [][]shapePt {
+	out := make([][]shapePt, len(lines))
+	for i, l := range lines {
+		for j, p := range l {
+			if j > 0 {
+				q := l[j-1]
+				n := int(math.Ceil(p.p.sub(q.p).norm() / step))
+				for k := 1; k < n; k++ {
+					u := float64(k) / float64(n)
+					out[i] = append(out[i], shapePt{lerp3(q.p, p.p, u), q.s + (p.s-q.s)*u})
+				}
+			}
+			out[i] = append(out[i], p)
+		}
+	}
+	return out
+}
+
 type prim struct {
 	depth float64
 	draw  func()
@@ -280,6 +300,9 @@ func (r *Renderer) drawScene(t float64) {
 		lines := make([][]barPt, len(shape))
 		var dsum float64
 		var dn int
+		if cam.k1 != 0 {
+			shape = subdivide(shape, 8)
+		}
 		for li, l := range shape {
 			for _, sp := range l {
 				x, y, d := cam.project(sp.p)
@@ -347,6 +370,13 @@ func (r *Renderer) drawScene(t float64) {
 			{xb, yb, r.s.CordMM / 2 * cam.f / db, 0},
 			{xt, yt, r.s.CordMM / 2 * cam.f / dt, tp.sub(b).norm()},
 		}}
+		if cam.k1 != 0 {
+			line[0] = line[0][:0]
+			for _, sp := range subdivide([][]shapePt{{{b, 0}, {tp, 1}}}, 8)[0] {
+				x, y, d := cam.project(sp.p)
+				line[0] = append(line[0], barPt{x, y, r.s.CordMM / 2 * cam.f / d, sp.s * tp.sub(b).norm()})
+			}
+		}
 		r.cv.drawBar(line, r.cord, cordColour)
 	}
 }

@@ -94,6 +94,10 @@ type Scenario struct {
 	// counter-clockwise seen from above, from face A-B's outward normal. Default 25.
 	AzimuthDeg float64
 
+	// K1 is the lens's radial distortion coefficient (OpenCV's k1; negative
+	// = barrel). Default 0.
+	K1 float64
+
 	// CaptureFPS is the true capture rate. Default 960.
 	CaptureFPS float64
 	// ContainerFPS is the playback rate written into the clip files. Default 30.
@@ -206,7 +210,7 @@ func (s Scenario) Validate() error {
 func (s Scenario) validateFields() error {
 	if !finite(s.BaseMM, s.TopMM, s.HeightMM, s.LegMM, s.BraceMM, s.MarkerMM, s.FocalPX, s.DistanceMM,
 		s.CameraHeightMM, s.AzimuthDeg, s.CaptureFPS, s.ContainerFPS, s.TwistDeg, s.SwayMM, s.Noise,
-		s.Flicker, s.BlurPX, s.MassG, s.PeakLoadG, s.CordMM, s.ShakePX) {
+		s.Flicker, s.BlurPX, s.MassG, s.PeakLoadG, s.CordMM, s.ShakePX, s.K1) {
 		return errors.New("synth: a numeric option is not a finite number")
 	}
 	known := false
@@ -265,6 +269,8 @@ func (s Scenario) validateFields() error {
 		return fmt.Errorf("tower mass %g g must be positive", s.MassG)
 	case s.PeakLoadG <= 0:
 		return fmt.Errorf("peak load %g g must be positive", s.PeakLoadG)
+	case math.Abs(s.K1) > 0.5:
+		return fmt.Errorf("lens distortion k1 %g: must be -0.5 to 0.5", s.K1)
 	case s.CordMM < 0 || s.CordMM > 20:
 		return fmt.Errorf("cord thickness %g mm: must be 0 to 20", s.CordMM)
 	case s.ShakePX < 0 || s.ShakePX > 50:

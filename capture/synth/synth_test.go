@@ -3,6 +3,7 @@ package synth
 import (
 	"bytes"
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
@@ -69,9 +70,12 @@ func TestProjectionMatchesOpenCV(t *testing.T) {
 			s.Width = 800
 			s.Height = 600
 		}},
+		{"barrel lens", func(s *Scenario) { s.K1 = -0.25; s.AzimuthDeg = 40 }},
+		{"pincushion lens", func(s *Scenario) { s.K1 = 0.15; s.FocalPX = 600 }},
 	}
 	type payload struct {
 		Rvec [3]float64    `json:"rvec"`
+		Dist [5]float64    `json:"dist"`
 		Tvec [3]float64    `json:"tvec"`
 		K    [3][3]float64 `json:"K"`
 		Obj  [][3]float64  `json:"obj"`
@@ -84,6 +88,7 @@ func TestProjectionMatchesOpenCV(t *testing.T) {
 		m := newModel(s)
 		var p payload
 		p.Rvec, p.Tvec = m.cam.rvec(), m.cam.tvec()
+		p.Dist = [5]float64{m.cam.k1}
 		p.K = [3][3]float64{{m.cam.f, 0, m.cam.cx}, {0, m.cam.f, m.cam.cy}, {0, 0, 1}}
 		for _, f := range []float64{0, float64(s.BreakFrame) + 2, float64(s.CollapseFrame) + 7.5} {
 			ps := m.pose(f)
@@ -103,7 +108,7 @@ out = []
 for c in json.load(sys.stdin):
     obj = np.array(c["obj"], dtype=np.float64).reshape(-1, 1, 3)
     img, _ = cv2.projectPoints(obj, np.array(c["rvec"], dtype=np.float64), np.array(c["tvec"], dtype=np.float64),
-                               np.array(c["K"], dtype=np.float64), None)
+                               np.array(c["K"], dtype=np.float64), np.array(c["dist"], dtype=np.float64))
     out.append(img.reshape(-1, 2).tolist())
 json.dump(out, sys.stdout)
 `
@@ -125,7 +130,7 @@ json.dump(out, sys.stdout)
 			d := math.Hypot(o[0]-theirs[ci][i][0], o[1]-theirs[ci][i][1])
 			worst = math.Max(worst, d)
 		}
-		// Source: OpenCV 4.6 calib3d projectPoints (Debian python3-opencv), pinhole model without distortion.
+		// Source: OpenCV 4.6 calib3d projectPoints (Debian python3-opencv), pinhole model with radial distortion k1.
 		if worst > 1e-6 {
 			t.Errorf("%s: projection differs from cv2.projectPoints by up to %.3g px (want < 1e-6)", c.name, worst)
 		}
@@ -194,8 +199,15 @@ func dotCentroid(g []uint8, w, h int, x, y, rDot float64) (float64, float64, boo
 // TestMarkerCentresMatchTruth renders noise-free frames and checks that the
 // dark dots found in the image are centred on the truth positions.
 func TestMarkerCentresMatchTruth(t *testing.T) {
-	s := short()
-	s.Noise, s.Flicker = 0, 0
+	for _, k1 := range []float64{0, -0.2} {
+		s := short()
+		s.Noise, s.Flicker = 0, 0
+		s.K1 = k1
+		t.Run(fmt.Sprintf("k1=%g", k1), func(t *testing.T) { checkMarkerCentres(t, s) })
+	}
+}
+
+func checkMarkerCentres(t *testing.T, s Scenario) {
 	r, err := NewRenderer(s)
 	if err != nil {
 		t.Fatal(err)
@@ -721,4 +733,27 @@ func TestCordHidesMarkers(t *testing.T) {
 		t.Error("the cord hid no marker in the frames checked")
 	}
 	t.Logf("%d hidden marker-frames among the frames checked", hiddenSeen)
+}
+
+// TestRayInvertsProjection checks that the pixel ray (used for the
+// background and the block faces) points back at the projected point, with
+// and without lens distortion.
+func TestRayInvertsProjection(t *testing.T) {
+	for _, k1 := range []float64{0, -0.3, 0.2} {
+		s := short()
+		s.K1 = k1
+		m := newModel(s)
+		ps := m.pose(0)
+		var worst float64
+		for i := range m.points {
+			p := m.pointPos(i, ps)
+			x, y, _ := m.cam.project(p)
+			want := p.sub(m.cam.pos).unit()
+			got := m.cam.ray(x, y)
+			worst = math.Max(worst, got.sub(want).norm())
+		}
+		if worst > 1e-9 {
+			t.Errorf("k1 %g: ray misses the projected point by %.2g rad", k1, worst)
+		}
+	}
 }

@@ -82,6 +82,8 @@ type TruthCamera struct {
 	Rvec        [3]float64 `json:"rvec"`
 	TvecMM      [3]float64 `json:"tvec_mm"`
 	RightVector [3]float64 `json:"right"`
+	// DistCoeffs are OpenCV's distortion coefficients (k1, k2, p1, p2, k3).
+	DistCoeffs [5]float64 `json:"dist_coeffs"`
 }
 
 // TruthTower is the nominal tower shape.
@@ -212,6 +214,7 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 		DistanceMM: s.DistanceMM, HeightMM: s.CameraHeightMM, AzimuthDeg: s.AzimuthDeg,
 		PositionMM: [3]float64{m.cam.pos.x, m.cam.pos.y, m.cam.pos.z},
 		Rvec:       m.cam.rvec(), TvecMM: m.cam.tvec(), RightVector: [3]float64{r.x, r.y, r.z},
+		DistCoeffs: [5]float64{m.cam.k1, 0, 0, 0, 0},
 	}
 	if m.fail >= 0 {
 		t.FirstMember = m.members[m.fail].id

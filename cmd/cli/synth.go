@@ -82,6 +82,7 @@ The same --seed gives the same clip, bit for bit.` + exitHelp,
 	f.Float64Var(&s.DistanceMM, "distance-mm", s.DistanceMM, "horizontal distance from the tower axis to the camera, mm")
 	f.Float64Var(&s.CameraHeightMM, "camera-height-mm", s.CameraHeightMM, "camera height above the base, mm")
 	f.Float64Var(&s.AzimuthDeg, "azimuth-deg", s.AzimuthDeg, "camera direction from face A-B's outward normal, degrees counter-clockwise seen from above")
+	f.Float64Var(&s.K1, "k1", s.K1, "lens radial distortion coefficient (OpenCV k1; negative = barrel)")
 	f.Float64Var(&s.CaptureFPS, "capture-fps", s.CaptureFPS, "true capture rate, frames per second")
 	f.Float64Var(&s.ContainerFPS, "container-fps", s.ContainerFPS, "playback rate stored in the clip files, frames per second")
 	f.IntVar(&s.Frames, "frames", s.Frames, "number of frames")
