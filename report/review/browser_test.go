@@ -11,6 +11,8 @@ import (
 	"testing"
 	"time"
 
+	"github.com/chromedp/cdproto/cdp"
+	"github.com/chromedp/cdproto/emulation"
 	"github.com/chromedp/chromedp"
 	"github.com/chromedp/chromedp/kb"
 
@@ -379,4 +381,13 @@ func TestReviewScreenshots(t *testing.T) {
 	do(t, ctx, "collapse", chromedp.KeyEvent(kb.End))
 	waitFrame(t, ctx, sr.truth.Frames-1)
 	shot("3-end-and-keys.png")
+
+	// A small laptop window.
+	do(t, ctx, "small window", chromedp.Func(func(ctx context.Context, tg *chromedp.Target) error {
+		_, err := cdp.Call(ctx, tg, emulation.SetDeviceMetricsOverride, emulation.SetDeviceMetricsOverrideParams{Width: 1024, Height: 640, DeviceScaleFactor: 1})
+		return err
+	}), chromedp.Evaluate[chromedp.Void](`window.dispatchEvent(new Event("resize")); document.getElementById("eventsBox").open = true`))
+	do(t, ctx, "onset", chromedp.Click(chromedp.CSS(fmt.Sprintf(`#events li[data-frame="%d"]`, sr.truth.OnsetFrame))))
+	waitFrame(t, ctx, sr.truth.OnsetFrame)
+	shot("4-small-window.png")
 }

@@ -221,6 +221,8 @@ function layout() {
     el.style.width = w + "px";
     el.style.height = h + "px";
   }
+  // Enlarged frames show their pixels sharp for marking; reduced ones smooth.
+  $("frameImg").style.imageRendering = scale >= 1 ? "pixelated" : "auto";
   const dpr = window.devicePixelRatio || 1;
   const c = $("overlay");
   c.width = Math.round(w * dpr);
