@@ -122,7 +122,7 @@ func (m *model) shake(t float64) (float64, float64) {
 	if m.s.ShakePX == 0 {
 		return 0, 0
 	}
-	hit := float64(m.s.CollapseFrame) + m.nCollapse
+	hit := m.tCollapse() + m.nCollapse
 	d := (t - hit) / m.s.CaptureFPS // seconds since the load hit the floor
 	if d <= 0 {
 		return 0, 0
@@ -492,7 +492,7 @@ func (m *model) bow(t float64) float64 {
 	if t <= 0 {
 		return 0
 	}
-	if b := float64(m.s.BreakFrame); t > b {
+	if b := m.tBreak(); t > b {
 		t = b
 	}
 	return m.bOn * (math.Exp((t-float64(m.s.OnsetFrame))/m.tau) - m.e0) / (1 - m.e0)
@@ -505,7 +505,7 @@ func (m *model) off(s float64, half int, t float64) vec3 {
 		return vec3{}
 	}
 	shape := math.Sin(math.Pi * (s - m.span0) / (m.span1 - m.span0))
-	bt := float64(m.s.BreakFrame)
+	bt := m.tBreak()
 	if t <= bt {
 		return m.bowDir.scale(m.bow(t) * shape)
 	}
@@ -517,8 +517,16 @@ func (m *model) off(s float64, half int, t float64) vec3 {
 	return d.add(m.kick1.scale(e * (m.span1 - s) / (m.span1 - m.sBreak)))
 }
 
+// tBreak is the instant the failing member snaps: half a frame before the
+// break frame, so that the break frame is the first to show it.
+func (m *model) tBreak() float64 { return float64(m.s.BreakFrame) - 0.5 }
+
+// tCollapse is the instant the collapse starts: half a frame before the
+// collapse frame, so that the collapse frame is the first to move.
+func (m *model) tCollapse() float64 { return float64(m.s.CollapseFrame) - 0.5 }
+
 func (m *model) broken(t float64) bool {
-	return m.fail >= 0 && t > float64(m.s.BreakFrame)
+	return m.fail >= 0 && t > m.tBreak()
 }
 
 // level motion before collapse: twist (rad), sway (plan vector) and
@@ -530,7 +538,7 @@ func (m *model) levelMotion(z, t float64) (float64, vec3, float64) {
 	// (for a twist failure: at the collapse); settlement at the collapse
 	end := c
 	if m.fail >= 0 {
-		end = float64(s.BreakFrame)
+		end = m.tBreak()
 	}
 	tt := math.Max(0, math.Min(t, end))
 	h := z / s.HeightMM
@@ -566,13 +574,13 @@ func (m *model) transform(p vec3, z0, t float64) vec3 {
 	w = math.Max(0, math.Min(1, w))
 	if m.broken(t) && w > 0 {
 		// the panel that lost its member shears and twists a little more
-		e := w * (1 - math.Exp(-(t-float64(m.s.BreakFrame))/5))
+		e := w * (1 - math.Exp(-(t-m.tBreak())/5))
 		tw += m.shearTwist * e
 		sw = sw.add(m.shearDir.scale(m.shearMM * e))
 	}
 	q := rotZ(p, tw).add(sw)
 	q.z -= se
-	c := (t - float64(m.s.CollapseFrame)) / m.nCollapse
+	c := (t - m.tCollapse()) / m.nCollapse
 	if c <= 0 || w == 0 {
 		return q
 	}

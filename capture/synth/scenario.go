@@ -108,10 +108,12 @@ type Scenario struct {
 	// 0.5 % of its length (for Fail = "twist": where the twist starts to run
 	// away). Default 250.
 	OnsetFrame int
-	// BreakFrame is the frame where the failing member breaks. Ignored for
-	// Fail = "twist". Default 380.
+	// BreakFrame is the first frame showing the failing member broken (its
+	// halves spring apart within a few frames). Ignored for Fail = "twist".
+	// Default 380.
 	BreakFrame int
-	// CollapseFrame is the frame where the global collapse starts. Default 392.
+	// CollapseFrame is the first frame of the global collapse, which then
+	// takes about 0.05 s of capture (at least 8 frames). Default 392.
 	CollapseFrame int
 	// Fail is the member that buckles first (a member id such as "AB-d1" or
 	// "leg-B"), "twist" for a tower that twists as a whole, or "" for the

@@ -40,10 +40,10 @@ type Truth struct {
 	// OnsetFrame is the first frame where the first member's bow exceeds 0.5 %
 	// of its length (for a twist failure: where the twist starts to run away).
 	OnsetFrame int `json:"onset_frame"`
-	// BreakFrame is the first frame after which the first member is broken
+	// BreakFrame is the first frame in which the first member is broken
 	// (-1 for a twist failure).
 	BreakFrame int `json:"break_frame"`
-	// CollapseFrame is the frame where the global collapse starts.
+	// CollapseFrame is the first frame of the global collapse.
 	CollapseFrame int `json:"collapse_frame"`
 	// CollapseFrames is how many frames the collapse takes.
 	CollapseFrames int `json:"collapse_frames"`
@@ -206,8 +206,6 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 		CollapseFrames: int(m.nCollapse), FailureMode: m.mode, MassG: s.MassG,
 		PeakLoadG: s.PeakLoadG, Efficiency: s.PeakLoadG / s.MassG,
 	}
-	rot := m.cam.rotation()
-	_ = rot
 	r := m.cam.rows[0]
 	t.Camera = TruthCamera{
 		FocalPX: m.cam.f, CX: m.cam.cx, CY: m.cam.cy,
