@@ -3,6 +3,7 @@ package records
 import (
 	"bufio"
 	"context"
+	"errors"
 	"fmt"
 	"os"
 	"os/exec"
@@ -273,5 +274,39 @@ func TestConcurrentWritersTwoProcesses(t *testing.T) {
 	s.db.QueryRow("PRAGMA integrity_check").Scan(&ic)
 	if ic != "ok" {
 		t.Errorf("integrity_check: %s", ic)
+	}
+}
+
+func TestWriterGivesUpWithClearErrorWhenLockHeld(t *testing.T) {
+	old := busyTimeout
+	busyTimeout = 300 * time.Millisecond
+	defer func() { busyTimeout = old }()
+	db := filepath.Join(t.TempDir(), "builds.db")
+	a, err := Open(db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer a.Close()
+	b, err := Open(db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	tx, err := a.db.BeginTx(context.Background(), nil) // holds the write lock
+	if err != nil {
+		t.Fatal(err)
+	}
+	start := time.Now()
+	_, err = b.Add(sampleBuild("T1"))
+	waited := time.Since(start)
+	if !errors.Is(err, ErrBusy) {
+		t.Errorf("Add while another writer holds the lock: %v, want ErrBusy", err)
+	}
+	if waited < 250*time.Millisecond {
+		t.Errorf("gave up after %v, before the busy timeout", waited)
+	}
+	tx.Rollback()
+	if _, err := b.Add(sampleBuild("T1")); err != nil {
+		t.Errorf("after the lock is released: %v", err)
 	}
 }

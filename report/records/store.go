@@ -22,12 +22,20 @@ import (
 	"strings"
 	"time"
 
-	_ "modernc.org/sqlite" // the pure-Go SQLite driver, registered as "sqlite"
+	"modernc.org/sqlite" // the pure-Go SQLite driver, registered as "sqlite"
+	sqlite3 "modernc.org/sqlite/lib"
 )
 
 // BusyTimeout is how long a writer waits for another writer's lock before
 // giving up.
 const BusyTimeout = 30 * time.Second
+
+// busyTimeout is BusyTimeout, shortened by tests.
+var busyTimeout = BusyTimeout
+
+// ErrBusy means another process held the store's write lock for longer than
+// BusyTimeout.
+var ErrBusy = errors.New("the store is busy: another failframe has been writing to it for too long; try again")
 
 // DefaultPath returns the database path used when none is given: $FAILFRAME_DB,
 // else $XDG_DATA_HOME/failframe/builds.db, else
@@ -99,7 +107,7 @@ func openAt(path string, target int) (*Store, error) {
 // writers queue on the lock rather than fail on a stale snapshot.
 func dsn(abs string) string {
 	q := url.Values{}
-	q.Set("_busy_timeout", fmt.Sprint(BusyTimeout.Milliseconds()))
+	q.Set("_busy_timeout", fmt.Sprint(busyTimeout.Milliseconds()))
 	q.Set("_journal_mode", "WAL")
 	q.Set("_foreign_keys", "1")
 	q.Set("_synchronous", "FULL")
@@ -129,16 +137,27 @@ func (s *Store) SchemaVersion() (int, error) {
 func (s *Store) write(ctx context.Context, fn func(tx *sql.Tx) error) error {
 	tx, err := s.db.BeginTx(ctx, nil)
 	if err != nil {
-		return fmt.Errorf("begin: %w", err)
+		return busy(fmt.Errorf("begin: %w", err))
 	}
 	if err := fn(tx); err != nil {
 		tx.Rollback()
-		return err
+		return busy(err)
 	}
 	if err := tx.Commit(); err != nil {
-		return fmt.Errorf("commit: %w", err)
+		return busy(fmt.Errorf("commit: %w", err))
 	}
 	return nil
+}
+
+// busy adds ErrBusy to an SQLITE_BUSY or SQLITE_LOCKED error.
+func busy(err error) error {
+	var se *sqlite.Error
+	if errors.As(err, &se) {
+		if c := se.Code() & 0xff; c == sqlite3.SQLITE_BUSY || c == sqlite3.SQLITE_LOCKED {
+			return fmt.Errorf("records: %w (%w)", ErrBusy, err)
+		}
+	}
+	return err
 }
 
 // read runs fn in one read transaction so that it sees a single snapshot.
