@@ -47,7 +47,7 @@ const cacheBytes = 48 << 20
 
 // Config says what to review.
 type Config struct {
-	// Clip is the video file to review. Required.
+	// Clip is the video file or folder of numbered stills to review. Required.
 	Clip string
 	// Marks is the marks file to show and edit; it need not exist yet. Default:
 	// the clip's path with its extension replaced by ".marks.yaml".
@@ -89,7 +89,8 @@ func New(cfg Config) (*Server, error) {
 	if cfg.Clip == "" {
 		return nil, errors.New("review: no clip given")
 	}
-	src, err := capture.Open(cfg.Clip, capture.Options{})
+	// For a folder of stills the capture rate is the only rate there is.
+	src, err := capture.Open(cfg.Clip, capture.Options{ImageFPS: cfg.CaptureFPS})
 	if err != nil {
 		return nil, err
 	}

@@ -578,3 +578,32 @@ func TestServerRefusesToReadBrokenMarksLater(t *testing.T) {
 		t.Errorf("broken marks: %d %s, want 422 naming line 4", resp.StatusCode, b)
 	}
 }
+
+func TestServerImageFolder(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "stills")
+	if err := os.Mkdir(dir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	for i := 0; i < 5; i++ {
+		img := image.NewGray(image.Rect(0, 0, 40, 30))
+		for k := range img.Pix {
+			img.Pix[k] = uint8(40 * i)
+		}
+		f, err := os.Create(filepath.Join(dir, fmt.Sprintf("shot_%04d.png", i+10)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		png.Encode(f, img)
+		f.Close()
+	}
+	_, base := startServer(t, Config{Clip: dir, CaptureFPS: 2000})
+	var info infoJSON
+	getJSON(t, base+"api/info", &info)
+	if info.Frames != 5 || info.Width != 40 || info.CaptureFPS != 2000 {
+		t.Fatalf("info %+v, want 5 frames of 40x30 at 2000 fps", info)
+	}
+	got := readPNGFromServer(t, base, 3)
+	if r, _, _, _ := got.At(5, 5).RGBA(); r>>8 != 120 {
+		t.Errorf("frame 3 grey %d, want 120 (the fourth still)", r>>8)
+	}
+}
