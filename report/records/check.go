@@ -27,6 +27,7 @@ type Problem struct {
 	Detail string `json:"detail"`
 }
 
+// String describes the problem on one line.
 func (p Problem) String() string {
 	if p.BuildID != "" {
 		return fmt.Sprintf("%s: build %s test %d file %s: %s (%s)", p.Kind, p.BuildID, p.Seq, p.Path, p.Detail, p.Object)
@@ -53,6 +54,7 @@ type IntegrityError struct {
 	Problems []Problem
 }
 
+// Error counts the problems and names the first.
 func (e *IntegrityError) Error() string {
 	return fmt.Sprintf("records: the store has %d problem(s); first: %s", len(e.Problems), e.Problems[0])
 }

@@ -197,6 +197,7 @@ type Error struct {
 	Err error
 }
 
+// Error names the file, build and field concerned, then the problem.
 func (e *Error) Error() string {
 	var b strings.Builder
 	b.WriteString("records: ")
