@@ -6,9 +6,15 @@
 // counter-clockwise seen from above and braced levels 0 (base) to n (top).
 // Plan coordinates follow the marks contract: x along face A-B from A toward
 // B, y from face A-B toward face C-D, z up, origin on the tower axis at the
-// base. The camera is a pinhole camera without lens distortion; its azimuth is
-// the direction from the tower axis toward the camera, counter-clockwise seen
-// from above, from face A-B's outward normal (the -y direction).
+// base. The camera is a pinhole camera (with optional radial lens distortion,
+// OpenCV's k1) aimed at the tower axis halfway up the tower and its loading
+// block; its azimuth is the direction from the tower axis toward the camera,
+// counter-clockwise seen from above, from face A-B's outward normal (the -y
+// direction).
+//
+// A scenario can also hang a swinging cord in front of the tower (markers
+// hidden now and then; the truth says when) and shake the camera when the
+// load lands (the truth's positions include the shake).
 //
 // All deformation is computed in 3D and projected. Frame 0 shows the tower in
 // its nominal shape; twist, sway and settlement are relative to it. Members
@@ -51,12 +57,18 @@ const FailTwist = "twist"
 
 // Failure-mode labels, shared with the measurement and report packages.
 const (
-	ModeTowerTwist       = "tower_twist"
-	ModeLegFullHeight    = "leg_full_height"
+	// ModeTowerTwist: the tower twisted as a whole before any member gave way.
+	ModeTowerTwist = "tower_twist"
+	// ModeLegFullHeight: a leg buckled over the tower's full height (bracing did not hold it).
+	ModeLegFullHeight = "leg_full_height"
+	// ModeLegBetweenBraces: a leg buckled between two braced levels.
 	ModeLegBetweenBraces = "leg_between_braces"
-	ModeBraceBuckling    = "brace_buckling"
-	ModeJointOrBase      = "joint_or_base"
-	ModeUndetermined     = "undetermined"
+	// ModeBraceBuckling: a brace bowed and snapped first.
+	ModeBraceBuckling = "brace_buckling"
+	// ModeJointOrBase: a joint or the base let go (not synthesized).
+	ModeJointOrBase = "joint_or_base"
+	// ModeUndetermined: the evidence does not tell (not synthesized).
+	ModeUndetermined = "undetermined"
 )
 
 // Scenario holds every knob of a synthetic load test. Lengths are in mm,
@@ -247,8 +259,8 @@ func (s Scenario) validateFields() error {
 		return fmt.Errorf("capture rate %g fps must be above 0 and at most 1000000", s.CaptureFPS)
 	case s.ContainerFPS <= 0 || s.ContainerFPS > 1000:
 		return fmt.Errorf("container rate %g fps must be above 0 and at most 1000", s.ContainerFPS)
-	case s.Frames < 2 || s.Frames > 1000000:
-		return fmt.Errorf("frames %d: must be 2 to 1000000", s.Frames)
+	case s.Frames < 2 || s.Frames > 100000:
+		return fmt.Errorf("frames %d: must be 2 to 100000", s.Frames)
 	case s.OnsetFrame < 0:
 		return fmt.Errorf("onset frame %d is negative", s.OnsetFrame)
 	case s.CollapseFrame >= s.Frames:
