@@ -32,7 +32,14 @@ var lastNumber = regexp.MustCompile(`[0-9]+`)
 type imageSource struct {
 	info  Info
 	files []string // by frame number; "" where the numbering skips
+	gaps  []imageGap
 	next  int
+}
+
+// imageGap is a run of missing frame numbers in an image folder.
+type imageGap struct {
+	from, to     int // first and last missing frame
+	before, next string
 }
 
 // openImages opens a folder of numbered stills (PNG, JPEG or TIFF). Files are
@@ -91,7 +98,13 @@ func openImages(dir string, opt Options) (Source, error) {
 		if i > 0 {
 			prev := new(big.Int).Sub(stills[i-1].num, first).Int64()
 			if f > prev+1 {
-				warnings = append(warnings, fmt.Sprintf("numbering skips from %s to %s: frames %d to %d are missing", stills[i-1].name, st.name, prev+1, f-1))
+				g := imageGap{from: int(prev + 1), to: int(f - 1), before: stills[i-1].name, next: st.name}
+				s.gaps = append(s.gaps, g)
+				missing := fmt.Sprintf("frames %d to %d are missing", g.from, g.to)
+				if g.from == g.to {
+					missing = fmt.Sprintf("frame %d is missing", g.from)
+				}
+				warnings = append(warnings, fmt.Sprintf("numbering skips from %s to %s: %s", g.before, g.next, missing))
 			}
 		}
 	}
@@ -154,7 +167,9 @@ func (s *imageSource) Read(dst *gocv.Mat) (int, error) {
 	s.next++
 	p := s.files[f]
 	if p == "" {
-		return f, &FrameError{Path: s.info.Path, Frame: f, Err: errors.New("no image with this frame number (gap in the numbering)")}
+		i := sort.Search(len(s.gaps), func(i int) bool { return s.gaps[i].to >= f })
+		g := s.gaps[i]
+		return f, &FrameError{Path: s.info.Path, Frame: f, Err: fmt.Errorf("no image for this frame: the numbering skips from %s to %s", g.before, g.next)}
 	}
 	img := gocv.IMRead(p, gocv.IMReadColor)
 	defer img.Close()

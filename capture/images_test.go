@@ -109,6 +109,12 @@ func TestImageFolderGap(t *testing.T) {
 	if len(bad) != 1 || bad[0] != 4 {
 		t.Fatalf("bad frames %v, want [4]", bad)
 	}
+	m := gocv.NewMat()
+	defer m.Close()
+	src.Seek(4)
+	if f, err := src.Read(&m); f != 4 || err == nil || !strings.Contains(err.Error(), "skips from shot_4.png to shot_6.png") {
+		t.Errorf("frame %d: %v, want an error naming the files around the gap", f, err)
+	}
 	// Not renumbered: frame 5 is still ffmpeg's frame 5.
 	if good[5] != sums[5] || good[3] != sums[3] {
 		t.Errorf("frames around the gap do not match ffmpeg's")

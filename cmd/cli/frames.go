@@ -135,7 +135,7 @@ func framesRun(opts *framesOptions) error {
 	for _, w := range info.Warnings {
 		fmt.Fprintf(opts.io.ErrOut, "warning: %s\n", w)
 	}
-	tb, warn, err := capture.ChooseRate(opts.captureFPS, 0, info.ContainerFPS)
+	tb, warn, err := chooseClipRate(opts.captureFPS, opts.imageFPS, info)
 	if err != nil {
 		return &FlagError{Err: fmt.Errorf("clip %s: %w; give --capture-fps", opts.clip, err)}
 	}

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"strconv"
 	"strings"
 
@@ -157,7 +158,7 @@ func probeRun(opts *probeOptions) error {
 		rep.Frames = res.Frames
 		rep.CountSource = "counted"
 	}
-	tb, warn, err := capture.ChooseRate(opts.captureFPS, 0, info.ContainerFPS)
+	tb, warn, err := chooseClipRate(opts.captureFPS, opts.imageFPS, info)
 	switch {
 	case err != nil:
 		rep.Warnings = append(rep.Warnings, "no capture rate: give --capture-fps to get real times")
@@ -214,7 +215,8 @@ func writeProbe(w io.Writer, r *probeReport) {
 		line("stored length", "%.3f s at %s fps", float64(r.Frames)/r.ContainerFPS, fmtNum(r.ContainerFPS))
 	}
 	if r.CaptureFPS > 0 {
-		from := map[string]string{capture.RateFromFlag: "--capture-fps", capture.RateFromContainer: "the container rate: real times may be wrong"}[r.CaptureFPSFrom]
+		from := map[string]string{capture.RateFromFlag: "--capture-fps", rateFromImageFPS: "--image-fps",
+			capture.RateFromContainer: "the container rate: real times may be wrong"}[r.CaptureFPSFrom]
 		line("real length", "%s s at %s fps capture (%s)", fmtNum(r.RealDurationS), fmtNum(r.CaptureFPS), from)
 	} else {
 		line("real length", "unknown (give --capture-fps)")
@@ -271,4 +273,24 @@ func plural(n int, one, many string) string {
 		return one
 	}
 	return many
+}
+
+// rateFromImageFPS says the capture rate is the rate given for a folder of
+// stills.
+const rateFromImageFPS = "image-fps"
+
+// chooseClipRate is capture.ChooseRate for commands without a marks file.
+// For a folder of stills the rate given with --image-fps is the rate the
+// stills were taken at, so it serves as the capture rate without a warning.
+func chooseClipRate(captureFPS, imageFPS float64, info capture.Info) (capture.Timebase, string, error) {
+	if captureFPS == 0 && imageFPS > 0 && info.ContainerFPS == imageFPS && isStills(info) {
+		return capture.Timebase{CaptureFPS: imageFPS, From: rateFromImageFPS}, "", nil
+	}
+	return capture.ChooseRate(captureFPS, 0, info.ContainerFPS)
+}
+
+// isStills reports whether the clip is a folder of stills.
+func isStills(info capture.Info) bool {
+	st, err := os.Stat(info.Path)
+	return err == nil && st.IsDir()
 }
