@@ -238,6 +238,15 @@ func TestReviewPageInChromium(t *testing.T) {
 	want[2][0] += ((lx-lp.Left)*200/lp.Width - 100) / 10
 	want[2][1] += ((ly-lp.Top)*200/lp.Height - 100) / 10
 
+	// Nudge the second point down by 2 x 0.1 px from the keyboard.
+	do(t, ctx, "nudge", chromedp.MouseClickXY(clicks[1][0], clicks[1][1]),
+		chromedp.KeyEvent(kb.ArrowDown, chromedp.KeyModifiers(chromedp.ModifierAlt)),
+		chromedp.KeyEvent(kb.ArrowDown, chromedp.KeyModifiers(chromedp.ModifierAlt)))
+	want[1][1] += 0.2
+	if fr := eval[string](t, ctx, `document.getElementById("frameNo").value`); fr != "30" {
+		t.Errorf("nudging moved the frame to %s", fr)
+	}
+
 	// Name the first point A1, give the tower block and derive its place.
 	do(t, ctx, "select first", chromedp.MouseClickXY(clicks[0][0], clicks[0][1]))
 	do(t, ctx, "rename and tower", chromedp.Evaluate[chromedp.Void](`(() => {
@@ -280,6 +289,10 @@ func TestReviewPageInChromium(t *testing.T) {
 	for i, p := range m.Points {
 		if d := math.Hypot(p.PX[0]-want[i][0], p.PX[1]-want[i][1]); d > 0.5 {
 			t.Errorf("point %s at %v, clicked at %v (%.3f px off)", p.ID, p.PX, want[i], d)
+		}
+		// The page keeps 3 decimals; anything more than rounding is a mistake.
+		if d := math.Hypot(p.PX[0]-want[i][0], p.PX[1]-want[i][1]); d > 0.002 {
+			t.Errorf("point %s at %v, expected %v exactly (%.4f px off)", p.ID, p.PX, want[i], d)
 		}
 	}
 	a1 := m.Points[0]

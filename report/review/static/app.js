@@ -944,8 +944,8 @@ function onKey(ev) {
     case "E": nextEvent(-1); break;
     case "m": case "M": setMarking(!S.marking); break;
     case "g": case "G": show(S.marks.reference_frame); break;
-    case "j": case "J": joinChosen(); break;
-    case "Delete": case "Backspace": if (S.sel >= 0) deletePoint(S.sel); break;
+    case "j": case "J": if (S.marking) joinChosen(); break;
+    case "Delete": case "Backspace": if (S.marking && S.sel >= 0) deletePoint(S.sel); break;
     case "Escape": S.sel = -1; S.chosen = []; renderMarks(); draw(); break;
     default: return;
   }
