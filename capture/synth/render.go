@@ -28,6 +28,7 @@ type Renderer struct {
 	blur  gocv.Mat
 	shook gocv.Mat
 	cord  *barTexture
+	tones [][2]float32 // per point: paper and dot brightness factors
 	noise []float32
 	flick [4]float64 // phases and second frequency
 }
@@ -50,6 +51,11 @@ func NewRenderer(s Scenario) (*Renderer, error) {
 	r.blur = gocv.NewMat()
 	r.shook = gocv.NewMat()
 	r.cord = newBarTexture(rand.New(rand.NewPCG(uint64(s.Seed), 0xc0d)), 4*s.HeightMM+200)
+	trng := rand.New(rand.NewPCG(uint64(s.Seed), 0x70e))
+	r.tones = make([][2]float32, len(m.points))
+	for i := range r.tones {
+		r.tones[i] = [2]float32{float32(0.9 + 0.12*trng.Float64()), float32(0.8 + 0.5*trng.Float64())}
+	}
 	px, err := r.work.DataPtrFloat32()
 	if err != nil {
 		r.Close()
@@ -344,7 +350,10 @@ func (r *Renderer) drawScene(t float64) {
 		p.draw()
 	}
 	// marker stickers last: they sit on the faces toward the camera
-	type sticker struct{ x, y, r, d float64 }
+	type sticker struct {
+		x, y, r, d float64
+		i          int
+	}
 	var st []sticker
 	for i, p := range m.points {
 		if !p.marker {
@@ -354,12 +363,14 @@ func (r *Renderer) drawScene(t float64) {
 		if d <= 1 {
 			continue
 		}
-		st = append(st, sticker{x, y, r.s.MarkerMM / 2 * cam.f / d, d})
+		st = append(st, sticker{x, y, r.s.MarkerMM / 2 * cam.f / d, d, i})
 	}
 	sort.SliceStable(st, func(a, b int) bool { return st[a].d > st[b].d })
 	for _, s := range st {
-		r.cv.drawDisc(s.x, s.y, s.r*1.8, paperColour)
-		r.cv.drawDisc(s.x, s.y, s.r, dotColour)
+		// each sticker has its own paper and ink tone, as hand-placed ones do
+		pt, dt := r.tones[s.i][0], r.tones[s.i][1]
+		r.cv.drawDisc(s.x, s.y, s.r*1.8, [3]float32{paperColour[0] * pt, paperColour[1] * pt, paperColour[2] * pt})
+		r.cv.drawDisc(s.x, s.y, s.r, [3]float32{dotColour[0] * dt, dotColour[1] * dt, dotColour[2] * dt})
 	}
 	// the swinging cord, nearest the camera
 	if r.s.CordMM > 0 {
