@@ -144,7 +144,7 @@ func synthRun(opts *synthOptions) error {
 	fmt.Fprintf(out, "%d frames %dx%d, captured at %g fps, stored at %g fps; %s bracing; first member %s (%s), onset frame %d, break frame %d, collapse frame %d; peak load %.0f g, efficiency %.0f\n",
 		truth.Frames, truth.Width, truth.Height, truth.CaptureFPS, truth.ContainerFPS, truth.Bracing,
 		first, truth.FailureMode, truth.OnsetFrame, truth.BreakFrame, truth.CollapseFrame, truth.PeakLoadG, truth.Efficiency)
-	fmt.Fprintf(errOut, "next: failframe analyze %s --marks %s --load %s --mass-g %g\n",
+	fmt.Fprintf(errOut, "next: failframe analyze %s --marks %s --load %s --mass-g %g --out REPORT-FOLDER\n",
 		filepath.Join(opts.out, synth.ClipAVI), filepath.Join(opts.out, synth.MarksFile), filepath.Join(opts.out, synth.LoadFile), s.MassG)
 	return nil
 }
