@@ -359,6 +359,34 @@ func TestWriteReadsBack(t *testing.T) {
 			t.Errorf("%s: read %d frames, want %d", name, n, s.Frames)
 		}
 	}
+	if ffprobe, err := exec.LookPath("ffprobe"); err == nil && FFmpegPath() != "" {
+		// Outside check: the ffprobe program (FFmpeg) counts the frames of
+		// tower.mp4 and reads its codec and rate.
+		out, err := exec.Command(ffprobe, "-v", "error", "-select_streams", "v:0", "-count_frames",
+			"-show_entries", "stream=codec_name,nb_read_frames,r_frame_rate,width,height", "-of", "json",
+			filepath.Join(dir, ClipMP4)).Output()
+		if err != nil {
+			t.Fatalf("ffprobe: %v", err)
+		}
+		var probe struct {
+			Streams []struct {
+				Codec  string `json:"codec_name"`
+				Frames string `json:"nb_read_frames"`
+				Rate   string `json:"r_frame_rate"`
+				Width  int    `json:"width"`
+				Height int    `json:"height"`
+			} `json:"streams"`
+		}
+		if err := json.Unmarshal(out, &probe); err != nil || len(probe.Streams) != 1 {
+			t.Fatalf("ffprobe output %s: %v", out, err)
+		}
+		st := probe.Streams[0]
+		if st.Codec != "h264" || st.Frames != fmt.Sprint(s.Frames) || st.Rate != "25/1" || st.Width != s.Width || st.Height != s.Height {
+			t.Errorf("ffprobe: %+v, want h264, %d frames, 25/1, %dx%d", st, s.Frames, s.Width, s.Height)
+		}
+	} else {
+		t.Log("ffprobe not installed: tower.mp4 not probed")
+	}
 	got, err := LoadTruth(filepath.Join(dir, TruthFile))
 	if err != nil {
 		t.Fatal(err)
