@@ -48,7 +48,8 @@ The output folder gets:
   marks.yaml   the marked points and members for the clip (frame 0)
   load.csv     load-cell log: time_ms since the logger started, load_g
 
-The same --seed gives the same clip, bit for bit.` + exitHelp,
+The same --seed gives the same clip, bit for bit.
+` + exitHelp,
 		Example: `  failframe synth --out demo-out/clip --seed 7
   failframe synth --out /tmp/h --bracing horizontal --frames 300 --onset-frame 120 --break-frame 200 --collapse-frame 210`,
 		Args: exactArgs(0),
@@ -82,7 +83,7 @@ The same --seed gives the same clip, bit for bit.` + exitHelp,
 	f.Float64Var(&s.DistanceMM, "distance-mm", s.DistanceMM, "horizontal distance from the tower axis to the camera, mm")
 	f.Float64Var(&s.CameraHeightMM, "camera-height-mm", s.CameraHeightMM, "camera height above the base, mm")
 	f.Float64Var(&s.AzimuthDeg, "azimuth-deg", s.AzimuthDeg, "camera direction from face A-B's outward normal, degrees counter-clockwise seen from above")
-	f.Float64Var(&s.K1, "k1", s.K1, "lens radial distortion coefficient (OpenCV k1; negative = barrel)")
+	f.Float64Var(&s.K1, "k1", s.K1, "lens radial distortion coefficient, OpenCV k1, negative = barrel (default 0 = none)")
 	f.Float64Var(&s.CaptureFPS, "capture-fps", s.CaptureFPS, "true capture rate, frames per second")
 	f.Float64Var(&s.ContainerFPS, "container-fps", s.ContainerFPS, "playback rate stored in the clip files, frames per second")
 	f.IntVar(&s.Frames, "frames", s.Frames, "number of frames")
@@ -97,8 +98,8 @@ The same --seed gives the same clip, bit for bit.` + exitHelp,
 	f.Float64Var(&s.BlurPX, "blur-px", s.BlurPX, "lens blur, standard deviation in px")
 	f.Float64Var(&s.MassG, "mass-g", s.MassG, "tower mass, g")
 	f.Float64Var(&s.PeakLoadG, "peak-load-g", s.PeakLoadG, "load at collapse (the log's peak), g")
-	f.Float64Var(&s.CordMM, "cord-mm", s.CordMM, "thickness of a dark cord swinging between the camera and the tower, hiding markers now and then, mm; 0 = no cord")
-	f.Float64Var(&s.ShakePX, "shake-px", s.ShakePX, "peak camera shake when the falling load hits the floor, px; 0 = still camera")
+	f.Float64Var(&s.CordMM, "cord-mm", s.CordMM, "thickness of a dark cord swinging between the camera and the tower, hiding markers now and then, mm (default 0 = no cord)")
+	f.Float64Var(&s.ShakePX, "shake-px", s.ShakePX, "peak camera shake when the falling load hits the floor, px (default 0 = still camera)")
 	f.BoolVar(&s.SkipMP4, "no-mp4", s.SkipMP4, "do not write tower.mp4 even when ffmpeg is installed")
 	return cmd
 }
