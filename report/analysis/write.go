@@ -417,10 +417,8 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
 	for i := 0; i < n; i++ {
 		sheet = append(sheet, ws+int(math.Round(float64(i)*float64(we-ws)/math.Max(1, float64(n-1)))))
 	}
-	cs := ws
-	if we-cs > 400 {
-		cs = we - 400
-	}
+	// The clip: the last part of the window, at most maxClipFrames long.
+	cs := max(ws, we-maxClipFrames+1)
 	eventAt := map[int]string{}
 	for _, e := range w.res.Events {
 		label := strings.ReplaceAll(e.Kind, "_", " ")
@@ -458,6 +456,9 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
 	}
 	return err
 }
+
+// maxClipFrames bounds the annotated failure clip.
+const maxClipFrames = 200
 
 func nonEmpty(s, alt string) string {
 	if s == "" {

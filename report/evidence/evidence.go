@@ -88,7 +88,7 @@ const (
 )
 
 // maxClipWidth bounds the clip's frame width.
-const maxClipWidth = 960
+const maxClipWidth = 640
 
 // seekGap is how far ahead a wanted frame must be before seeking beats reading.
 const seekGap = 24
