@@ -2,6 +2,16 @@
 // files through OpenCV's FFmpeg backend and folders of numbered stills. Frames
 // stream one at a time, so memory stays bounded whatever the clip length.
 // Every time this package reports is real time, t = frame / capture rate.
+//
+// Frame numbers are the clip's own, not a count of what decoded: a video's
+// frames are numbered from their timestamps (frame = time x container rate)
+// while those fall on whole frames, else by counting; a still's number is
+// the last number in its file name, counted from the lowest. A frame that is
+// missing or cannot be decoded is reported by Read as a *FrameError with its
+// number and skipped; the frames after it keep their numbers. Seek does not
+// trust the decoder's own positioning: it lands before the frame, checks
+// where it landed from the timestamp (or starts again from the beginning
+// when there are none) and decodes forward to the exact frame.
 package capture
 
 import (

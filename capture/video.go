@@ -141,6 +141,16 @@ func openVideo(path string, opt Options) (Source, error) {
 	s.info.Width, s.info.Height = first.Cols(), first.Rows()
 	if s.ptsOK {
 		s.firstPTS = s.vc.Get(gocv.VideoCapturePosMsec) / 1000 * s.fps
+		// A stream without timestamps (a bare H.264 stream, say) shows
+		// none on its second frame either: number its frames by counting.
+		before := s.vc.Get(gocv.VideoCapturePosFrames)
+		s.vc.Grab(1)
+		if s.vc.Get(gocv.VideoCapturePosFrames) > before && s.vc.Get(gocv.VideoCapturePosMsec) == 0 {
+			s.ptsOK = false
+		}
+	}
+	if !s.ptsOK {
+		s.info.Warnings = append(s.info.Warnings, "the stream has no usable timestamps: frames are numbered by counting, so a frame lost to damage cannot be told from the next")
 	}
 
 	if opt.CountFrames || s.info.FrameCount == 0 {

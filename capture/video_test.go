@@ -71,6 +71,11 @@ func TestReadMatchesFFmpeg(t *testing.T) {
 			if n := ffprobeCount(t, clip); info.FrameCount != n || len(ff) != n {
 				t.Fatalf("frame count %d (%s), ffprobe counted %d, framemd5 has %d", info.FrameCount, info.CountSource, n, len(ff))
 			}
+			// Only the raw stream lacks timestamps (and so a frame count).
+			noPTS := strings.Contains(strings.Join(info.Warnings, " "), "no usable timestamps")
+			if noPTS != (tt.countSource == "counted") || len(info.Warnings) > 1 {
+				t.Errorf("warnings %q", info.Warnings)
+			}
 			if info.CountSource != tt.countSource {
 				t.Errorf("count source %q, want %q", info.CountSource, tt.countSource)
 			}
