@@ -6,6 +6,8 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/spf13/pflag"
+
 	"github.com/failframe/failframe/capture/synth"
 )
 
@@ -101,5 +103,38 @@ func TestSynthWritesFolder(t *testing.T) {
 	}
 	if !strings.Contains(out.String(), "first member AB-d1 (brace_buckling)") {
 		t.Errorf("summary missing:\n%s", out)
+	}
+}
+
+func TestSynthHelpDocumentsEveryOption(t *testing.T) {
+	io, out, _ := testIO()
+	if code := Run(io, []string{"synth", "--help"}); code != ExitOK {
+		t.Fatalf("exit %d", code)
+	}
+	help := out.String()
+	cmd := newSynthCmd(io)
+	cmd.Flags().VisitAll(func(f *pflag.Flag) {
+		var line string
+		for _, l := range strings.Split(help, "\n") {
+			if strings.Contains(l, "--"+f.Name+" ") {
+				line = l
+			}
+		}
+		if line == "" {
+			t.Errorf("--%s missing from the help", f.Name)
+			return
+		}
+		switch f.Name {
+		case "help", "out", "no-mp4", "fail":
+			return
+		}
+		if !strings.Contains(line, "default") {
+			t.Errorf("--%s help does not state its default: %q", f.Name, line)
+		}
+	})
+	for _, want := range []string{"horizontal", "diagonal", "z", "x", "truth.json", "marks.yaml", "load.csv", "Exit status"} {
+		if !strings.Contains(help, want) {
+			t.Errorf("help lacks %q", want)
+		}
 	}
 }
