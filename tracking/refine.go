@@ -18,6 +18,14 @@ type grayImage struct {
 // so the marker counts more than the background at the window's edge, which
 // may not move with it.
 type template struct {
+	// raw holds the reference pixels, rgx and rgy their gradients and gauss
+	// the Gaussian weights; static marks pixels found to belong to a still
+	// background rather than the point (weighted out).
+	raw, rgx, rgy, gauss []float64
+	static               []bool
+	// ev is the evidence, per pixel, that it stays still while the point
+	// moves; nil until the point first moves far enough to tell.
+	ev     []float32
 	r      int
 	n      int       // (2r+1)^2
 	wt     []float64 // pixel weights, summing to 1
@@ -32,6 +40,13 @@ type template struct {
 	minEig float64
 	// anchorX, anchorY is the integer grid centre in the reference frame.
 	anchorX, anchorY int
+	// core lists the pixels within the inner half of the window, where the
+	// marker itself is; coreT are their zero-mean values and coreNorm their
+	// norm. The core's correlation tells a match of the marker from a match
+	// of the background around it.
+	core     []int
+	coreT    []float64
+	coreNorm float64
 }
 
 // newTemplate cuts a template of half-size r around (ax, ay) out of img,
@@ -39,13 +54,12 @@ type template struct {
 // 2-pixel border for the gradients must lie inside img.
 func newTemplate(img grayImage, ax, ay, r int, sigma float64) *template {
 	side := 2*r + 1
-	tp := &template{r: r, n: side * side, anchorX: ax, anchorY: ay}
-	tp.t = make([]float64, tp.n)
-	tp.wt = make([]float64, tp.n)
-	tp.gx = make([]float64, tp.n)
-	tp.gy = make([]float64, tp.n)
+	n := side * side
+	tp := &template{r: r, n: n, anchorX: ax, anchorY: ay,
+		raw: make([]float64, n), rgx: make([]float64, n), rgy: make([]float64, n), gauss: make([]float64, n),
+		t: make([]float64, n), wt: make([]float64, n), gx: make([]float64, n), gy: make([]float64, n),
+		static: make([]bool, n)}
 	at := func(x, y int) float64 { return float64(img.pix[y*img.stride+x]) }
-	var sum, wsum float64
 	k := 0
 	for v := -r; v <= r; v++ {
 		for u := -r; u <= r; u++ {
@@ -54,40 +68,73 @@ func newTemplate(img grayImage, ax, ay, r int, sigma float64) *template {
 			if sigma > 0 {
 				w = math.Exp(-float64(u*u+v*v) / (2 * sigma * sigma))
 			}
-			tp.wt[k] = w
-			wsum += w
-			tp.t[k] = at(x, y)
-			sum += w * tp.t[k]
+			tp.gauss[k] = w
+			tp.raw[k] = at(x, y)
 			// Fourth-order central differences (common practice).
-			tp.gx[k] = (at(x-2, y) - 8*at(x-1, y) + 8*at(x+1, y) - at(x+2, y)) / 12
-			tp.gy[k] = (at(x, y-2) - 8*at(x, y-1) + 8*at(x, y+1) - at(x, y+2)) / 12
+			tp.rgx[k] = (at(x-2, y) - 8*at(x-1, y) + 8*at(x+1, y) - at(x+2, y)) / 12
+			tp.rgy[k] = (at(x, y-2) - 8*at(x, y-1) + 8*at(x, y+1) - at(x, y+2)) / 12
 			k++
 		}
+	}
+	tp.weigh()
+	c := max(3, r/2)
+	var csum float64
+	for v := -c; v <= c; v++ {
+		for u := -c; u <= c; u++ {
+			k := (v+r)*side + u + r
+			tp.core = append(tp.core, k)
+			tp.coreT = append(tp.coreT, tp.raw[k])
+			csum += tp.raw[k]
+		}
+	}
+	cm := csum / float64(len(tp.core))
+	var css float64
+	for i := range tp.coreT {
+		tp.coreT[i] -= cm
+		css += tp.coreT[i] * tp.coreT[i]
+	}
+	tp.coreNorm = math.Sqrt(css)
+	return tp
+}
+
+// weigh computes the weighted template, its gradients and Gauss-Newton
+// matrix from the raw patch, the Gaussian and the static-pixel mask.
+func (tp *template) weigh() {
+	var sum, wsum float64
+	for k, g := range tp.gauss {
+		w := g
+		if tp.static[k] {
+			w = 0
+		}
+		tp.wt[k] = w
+		wsum += w
+		sum += w * tp.raw[k]
 	}
 	mean := sum / wsum
 	var ss, sxx, sxy, syy float64
 	for i := range tp.t {
 		tp.wt[i] /= wsum
 		w := tp.wt[i]
-		tp.t[i] -= mean
+		tp.t[i] = tp.raw[i] - mean
 		ss += w * tp.t[i] * tp.t[i]
-		sxx += w * tp.gx[i] * tp.gx[i]
-		sxy += w * tp.gx[i] * tp.gy[i]
-		syy += w * tp.gy[i] * tp.gy[i]
-		tp.gx[i] *= w
-		tp.gy[i] *= w
+		sxx += w * tp.rgx[i] * tp.rgx[i]
+		sxy += w * tp.rgx[i] * tp.rgy[i]
+		syy += w * tp.rgy[i] * tp.rgy[i]
+		tp.gx[i] = w * tp.rgx[i]
+		tp.gy[i] = w * tp.rgy[i]
 	}
 	tp.norm = math.Sqrt(ss)
+	tp.hxx, tp.hxy, tp.hyy = 0, 0, 0
 	det := sxx*syy - sxy*sxy
 	if det > 0 {
 		tp.hxx, tp.hxy, tp.hyy = syy/det, -sxy/det, sxx/det
 	}
 	tr := sxx + syy
 	lmin := tr/2 - math.Sqrt(math.Max(0, tr*tr/4-det))
+	tp.minEig = 0
 	if ss > 0 {
 		tp.minEig = lmin / ss
 	}
-	return tp
 }
 
 // refiner holds scratch buffers for refinement so the per-frame loop does not
@@ -189,9 +236,14 @@ func (rf *refiner) sample(img grayImage, r int, cx, cy float64) (mean float64, o
 type refineResult struct {
 	x, y      float64 // template centre in the current frame
 	zncc      float64 // zero-mean normalised cross-correlation at the end
+	core      float64 // the same over the window's inner half
 	converged bool
 	ok        bool // false when the patch left the frame or had no contrast
 }
+
+// q is the match quality: the lower of the whole window's and the core's
+// correlation, so that neither background nor a marker alone can pass.
+func (r refineResult) q() float64 { return math.Min(r.zncc, r.core) }
 
 // refine aligns template tp to img by inverse-compositional Gauss-Newton on
 // the zero-mean normalised sum of squared differences, starting with the
@@ -253,5 +305,127 @@ func (rf *refiner) refine(tp *template, img grayImage, x, y float64, maxIter int
 	// The score is the one at the last iterate, which is within one step
 	// (below eps when converged) of the final position.
 	res.x, res.y = x, y
+	res.core = rf.coreScore(tp)
 	return res
+}
+
+// coreScore is the correlation of the core of the last resampled patch with
+// the template's core.
+func (rf *refiner) coreScore(tp *template) float64 {
+	var sum float64
+	for _, k := range tp.core {
+		sum += rf.w[k]
+	}
+	mean := sum / float64(len(tp.core))
+	var ss, cross float64
+	for i, k := range tp.core {
+		d := rf.w[k] - mean
+		ss += d * d
+		cross += d * tp.coreT[i]
+	}
+	if ss == 0 || tp.coreNorm == 0 {
+		return 0
+	}
+	return cross / (math.Sqrt(ss) * tp.coreNorm)
+}
+
+// learnStatic gathers evidence, pixel by pixel, of background that stays
+// still while the point moves: with the point's centre now at (x, y), a
+// pixel whose reference value is matched by the frame at its old place (the
+// anchor grid) and not at the moved place is still background. Once a
+// pixel's evidence is strong it is weighted out of the template, so that a
+// textured wall or table behind a thin member does not hold the point back.
+// Nothing is learned until the point has moved 0.7 px, where the two
+// explanations can be told apart. It reports whether the template changed.
+func (rf *refiner) learnStatic(tp *template, img grayImage, x, y float64) bool {
+	ax, ay, r := tp.anchorX, tp.anchorY, tp.r
+	if math.Hypot(x-float64(ax), y-float64(ay)) < 0.7 {
+		return false
+	}
+	if ax-r < 0 || ay-r < 0 || ax+r >= img.width || ay+r >= img.height {
+		return false
+	}
+	if _, ok := rf.sample(img, r, x, y); !ok {
+		return false
+	}
+	n := tp.n
+	side := 2*r + 1
+	mov := rf.w[:n]
+	st := rf.tmp[:n]
+	for j := 0; j < side; j++ {
+		row := img.pix[(ay-r+j)*img.stride+ax-r:]
+		for i := 0; i < side; i++ {
+			st[j*side+i] = float64(row[i])
+		}
+	}
+	stats := func(v []float64) (mean, norm float64) {
+		var sum, wsum float64
+		for k, g := range tp.gauss {
+			sum += g * v[k]
+			wsum += g
+		}
+		mean = sum / wsum
+		var ss float64
+		for k, g := range tp.gauss {
+			d := v[k] - mean
+			ss += g * d * d
+		}
+		return mean, math.Sqrt(ss)
+	}
+	mt, nt := stats(tp.raw)
+	mm, nm := stats(mov)
+	if nt == 0 || nm == 0 {
+		return false
+	}
+	// Residuals of both explanations, in reference grey levels. Gain and
+	// offset are the light's, the same for both: take them from the moved
+	// patch, which matches the template.
+	var noise, gsum float64
+	for k, g := range tp.gauss {
+		t := tp.raw[k] - mt
+		em := (mov[k]-mm)*nt/nm - t
+		es := (st[k]-mm)*nt/nm - t
+		mov[k], st[k] = em*em, es*es
+		noise += g * math.Min(mov[k], st[k])
+		gsum += g
+	}
+	noise /= gsum
+	thr := 4 * math.Max(noise, 1)
+	if tp.ev == nil {
+		tp.ev = make([]float32, n)
+	}
+	changed := false
+	for k := range tp.ev {
+		em2, es2 := mov[k], st[k]
+		switch {
+		case em2 > thr && es2 < 0.25*em2:
+			tp.ev[k] = min(tp.ev[k]+1, 10)
+		case es2 > thr && em2 < 0.25*es2:
+			tp.ev[k] = max(tp.ev[k]-1, -10)
+		}
+		if (tp.ev[k] >= 3) != tp.static[k] {
+			changed = true
+		}
+	}
+	if !changed {
+		return false
+	}
+	old := append([]bool(nil), tp.static...)
+	var kept, total float64
+	for k, g := range tp.gauss {
+		tp.static[k] = tp.ev[k] >= 3
+		total += g
+		if !tp.static[k] {
+			kept += g
+		}
+	}
+	minEig := tp.minEig
+	tp.weigh()
+	// Keep enough of the patch, with texture in both directions.
+	if kept < 0.3*total || tp.minEig < 0.5*minEig && tp.minEig < 0.002 {
+		copy(tp.static, old)
+		tp.weigh()
+		return false
+	}
+	return true
 }

@@ -142,7 +142,8 @@ func (s *scene) spot(cx, cy, sigma, amp float64) {
 	}
 }
 
-// bar adds a rectangle with soft (error-function) edges.
+// bar paints an opaque rectangle with soft (error-function) edges, of grey
+// bg+amp, over what is below it (members hide the background).
 func (s *scene) bar(cx, cy, hl, hw, ang, soft, amp float64) {
 	sn, cs := math.Sincos(ang)
 	ext := math.Abs(cs)*hl + math.Abs(sn)*hw + 4*soft + 1
@@ -154,7 +155,8 @@ func (s *scene) bar(cx, cy, hl, hw, ang, soft, amp float64) {
 		for x := x0; x <= x1; x++ {
 			u := (float64(x)-cx)*cs + (float64(y)-cy)*sn
 			v := -(float64(x)-cx)*sn + (float64(y)-cy)*cs
-			s.buf[y*s.w+x] += amp * step(u, hl) * step(v, hw)
+			a := step(u, hl) * step(v, hw)
+			s.buf[y*s.w+x] = s.buf[y*s.w+x]*(1-a) + (s.bg+amp)*a
 		}
 	}
 }

@@ -85,6 +85,9 @@ type Options struct {
 	PlainLK bool
 	// LKEpsilon is Lucas-Kanade's stopping step in pixels; default 0.01.
 	LKEpsilon float64
+
+	// keepBackground switches off learning of still background (for tests).
+	keepBackground bool
 }
 
 // DefaultOptions returns the tracker's default settings.
@@ -145,6 +148,9 @@ type pointState struct {
 	typ     float64
 	lost    bool
 	lostFor int
+	// candX, candY is a strong match found while lost, awaiting confirmation.
+	candX, candY float64
+	candOK       bool
 }
 
 // Tracker follows the marked points frame by frame. It is not safe for
@@ -341,51 +347,76 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 	if p.lost {
 		p.lostFor++
 		// Try to take the point up again: often at first, then now and then.
-		if p.lostFor <= 10 || p.lostFor%10 == 0 {
-			if x, y, q, ok := t.search(p, cur, p.cx, p.cy, o.SearchRadius, o.ReacquireQuality); ok {
+		// A strong match must be found twice running at the same place
+		// before the point counts as found.
+		if p.lostFor <= 10 || p.lostFor%10 == 0 || p.candOK {
+			x, y, q, ok := t.search(p, cur, p.cx, p.cy, o.SearchRadius, o.ReacquireQuality)
+			switch {
+			case ok && p.candOK && math.Hypot(x-p.candX, y-p.candY) <= 0.5:
+				p.candOK = false
 				p.accept(x, y, q)
 				return p.sample(q)
+			case ok:
+				p.candX, p.candY, p.candOK = x, y, true
+			default:
+				p.candOK = false
 			}
+			return p.sample(q)
 		}
 		return p.sample(0)
 	}
 	px, py := p.cx+p.vx, p.cy+p.vy
 	speed := math.Hypot(p.vx, p.vy)
+	// A result may be taken with ordinary quality only where an independent
+	// estimate agrees: the constant-velocity prediction (within near px) or
+	// Lucas-Kanade from the previous frame (within agree px). Anything else
+	// needs a strong match, so that a point is never carried off onto
+	// another feature.
+	near := math.Max(1.5, r/4)
+	const agree = 1.0
+	dist := func(x0, y0, x1, y1 float64) float64 { return math.Hypot(x1-x0, y1-y0) }
 
 	// Fast path: align the reference patch starting at the prediction.
 	res := t.rf.refine(p.tp, cur, px, py, o.MaxIter, o.Epsilon, r)
-	if res.ok && res.converged && res.zncc >= o.MinQuality &&
-		(p.typ == 0 || res.zncc >= p.typ-o.QualityDrop) &&
-		math.Hypot(res.x-px, res.y-py) <= r/2 {
-		p.accept(res.x, res.y, res.zncc)
-		return p.sample(res.zncc)
+	if res.ok && res.converged && res.q() >= o.MinQuality &&
+		(p.typ == 0 || res.q() >= p.typ-o.QualityDrop) &&
+		dist(res.x, res.y, px, py) <= near {
+		p.accept(res.x, res.y, res.q())
+		if !o.keepBackground {
+			t.rf.learnStatic(p.tp, cur, res.x, res.y)
+		}
+		return p.sample(res.q())
 	}
-	best := res.zncc
+	best := res.q()
 
 	// Frame-to-frame Lucas-Kanade with a forward-backward check.
 	lx, ly, fb, lkOK := t.lkStep(p.cx, p.cy, px, py, speed)
-	if lkOK && fb <= o.MaxFB {
+	lkOK = lkOK && fb <= o.MaxFB
+	if lkOK {
 		res2 := t.rf.refine(p.tp, cur, lx, ly, o.MaxIter, o.Epsilon, r)
-		if res2.ok && res2.zncc >= o.MinQuality {
-			p.accept(res2.x, res2.y, res2.zncc)
-			return p.sample(res2.zncc)
+		if res2.ok && (res2.q() >= o.ReacquireQuality ||
+			res2.q() >= o.MinQuality && dist(res2.x, res2.y, lx, ly) <= agree) {
+			p.accept(res2.x, res2.y, res2.q())
+			if !o.keepBackground {
+				t.rf.learnStatic(p.tp, cur, res2.x, res2.y)
+			}
+			return p.sample(res2.q())
 		}
-		best = math.Max(best, res2.zncc)
+		best = math.Max(best, res2.q())
 	}
 
 	// Correlation search around the prediction, wider for faster points.
-	need := o.MinQuality
-	if !(lkOK && fb <= o.MaxFB) {
-		need = o.ReacquireQuality
-	}
 	rad := min(o.MaxSearchRadius, max(o.SearchRadius, int(math.Ceil(3*speed))))
-	x, y, q, ok := t.search(p, cur, px, py, rad, need)
+	x, y, q, ok := t.search(p, cur, px, py, rad, o.MinQuality)
 	if ok {
-		p.accept(x, y, q)
-		return p.sample(q)
+		consistent := dist(x, y, px, py) <= near || lkOK && dist(x, y, lx, ly) <= agree
+		if q >= o.ReacquireQuality || consistent {
+			p.accept(x, y, q)
+			return p.sample(q)
+		}
 	}
 	best = math.Max(best, q)
-	p.lost, p.lostFor = true, 0
+	p.lost, p.lostFor, p.candOK = true, 0, false
 	return p.sample(best)
 }
 
@@ -453,7 +484,7 @@ func getPoint(m gocv.Mat) (x, y float64) {
 
 // search looks for p's reference patch within rad pixels of (x, y) by
 // normalised cross-correlation, aligns it at the best peak and reports it
-// when the aligned correlation reaches need.
+// when the aligned correlation reaches need; q is the best correlation seen.
 func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, need float64) (nx, ny, q float64, ok bool) {
 	r := p.tp.r
 	cx, cy := int(math.Round(x)), int(math.Round(y))
@@ -470,10 +501,10 @@ func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, ne
 	}
 	sx, sy := float64(rect.Min.X+loc.X+r), float64(rect.Min.Y+loc.Y+r)
 	res := t.rf.refine(p.tp, cur, sx, sy, t.opt.MaxIter, t.opt.Epsilon, float64(r))
-	if !res.ok || res.zncc < need {
-		return 0, 0, math.Max(float64(peak), res.zncc), false
+	if !res.ok || res.q() < need {
+		return 0, 0, math.Min(float64(peak), res.q()), false
 	}
-	return res.x, res.y, res.zncc, true
+	return res.x, res.y, res.q(), true
 }
 
 // stepPlain runs frame-to-frame Lucas-Kanade for all points in one call.

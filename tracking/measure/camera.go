@@ -148,9 +148,10 @@ func FitPinhole(xyz [][3]float64, uv [][2]float64) (*Pinhole, error) {
 // ref[i] and observed position obs[i] (px), the model is
 // obs = ref + Project(moved) - Project(rest), which cancels fixed errors
 // of the camera fit. Motion toward the camera is weakly observable, so it
-// carries a soft prior (priorMM of motion costs one pixel). Returns twist
-// (rad), plan displacement (mm) and settlement (mm, down).
-func (c *Pinhole) levelPose(xyz [][3]float64, ref, obs [][2]float64, toward [2]float64, x0 [4]float64, priorMM float64, fitTwist bool) (x [4]float64, ok bool) {
+// carries a soft prior: a departure of priorMM from prior0 (mm toward the
+// camera) costs one pixel. Returns twist (rad), plan displacement (mm) and
+// settlement (mm, down).
+func (c *Pinhole) levelPose(xyz [][3]float64, ref, obs [][2]float64, toward [2]float64, x0 [4]float64, prior0, priorMM float64, fitTwist bool) (x [4]float64, ok bool) {
 	n := len(xyz)
 	base := make([][2]float64, n)
 	for i := range xyz {
@@ -172,7 +173,7 @@ func (c *Pinhole) levelPose(xyz [][3]float64, ref, obs [][2]float64, toward [2]f
 			out[2*i] = ref[i][0] + u - base[i][0] - obs[i][0]
 			out[2*i+1] = ref[i][1] + v - base[i][1] - obs[i][1]
 		}
-		out[2*n] = (p[1]*toward[0] + p[2]*toward[1]) / priorMM
+		out[2*n] = (p[1]*toward[0] + p[2]*toward[1] - prior0) / priorMM
 		out[2*n+1] = 0
 		if !fitTwist {
 			out[2*n+1] = p[0] * 1e3

@@ -45,6 +45,10 @@ const (
 	// SustainRows is how many consecutive tracked rows must stay above the
 	// floor to confirm an onset.
 	SustainRows = 5
+	// BreakStrainPct is the smallest one-frame change of a member's chord
+	// length, percent, taken as a break (with eight standard deviations of
+	// the baseline's frame-to-frame changes).
+	BreakStrainPct = 0.2
 	// TwistFloorDeg is the smallest twist change taken as a twist onset, degrees.
 	TwistFloorDeg = 0.25
 	// TwistModeDeg is the twist before collapse that, with no member bowing
@@ -88,6 +92,7 @@ type Event struct {
 type memberFind struct {
 	m                *Member
 	onset, brk       int
+	change           int
 	onsetDet, brkDet string
 	leg              string
 }
@@ -124,7 +129,7 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 		if m.Kind == "leg" {
 			f.leg = legOf(m, in)
 		}
-		f.onset, f.onsetDet = bowOnset(m, nb, end)
+		f.onset, f.change, f.onsetDet = bowOnset(m, nb, end)
 		f.brk, f.brkDet = memberBreak(m, in, nb, f.onset, n)
 		finds = append(finds, f)
 	}
@@ -219,10 +224,9 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 
 	// Mode.
 	var firstLeg *Leg
+	bigTwist := !math.IsNaN(d.TopTwistDeg) && math.Abs(d.TopTwistDeg) >= TwistModeDeg
 	switch {
-	case twRow >= 0 && (first == nil || first.onset < 0 || twRow+SustainRows < first.onset):
-		d.Mode = ModeTowerTwist
-	case (first == nil || firstIsBreak) && colRow >= 0 && !math.IsNaN(d.TopTwistDeg) && math.Abs(d.TopTwistDeg) >= TwistModeDeg:
+	case (first == nil || firstIsBreak) && (twRow >= 0 && bigTwist):
 		d.Mode = ModeTowerTwist
 	case first != nil && !firstIsBreak && first.m.Kind == "leg":
 		for i := range res.Legs {
@@ -277,14 +281,18 @@ func timeOf(frame int, fps float64) float64 {
 	return math.NaN()
 }
 
-// bowOnset finds the change point of a member's bow before row end.
-func bowOnset(m *Member, nb, end int) (int, string) {
+// bowOnset finds a member's buckling onset before row end: the first row
+// of SustainRows tracked rows with the bow at or above OnsetFloorFrac of the
+// member's length, provided Page's CUSUM on the bow (baseline from the early
+// window) has signalled by then. It also returns the CUSUM change point, the
+// row where the bow began to grow.
+func bowOnset(m *Member, nb, end int) (onset, change int, detail string) {
 	if m.LengthMM <= 0 {
-		return -1, ""
+		return -1, -1, ""
 	}
 	mu, sigma, cnt := meanStd(m.BowMM[:min(nb, len(m.BowMM))])
 	if cnt < 3 {
-		return -1, ""
+		return -1, -1, ""
 	}
 	sigma = math.Max(math.Max(sigma, diffSigma(m.BowMM[:end])), 0.005) // mm: at least below any tracker's noise
 	floor := OnsetFloorFrac * m.LengthMM
@@ -292,13 +300,13 @@ func bowOnset(m *Member, nb, end int) (int, string) {
 	x := m.BowMM[:end]
 	from := 0
 	for {
-		f := sustainedAbove(x, mu+floor, from)
+		f := sustainedAbove(x, floor, from)
 		if f < 0 {
-			return -1, ""
+			return -1, -1, ""
 		}
 		// A bow that went from under a quarter of the floor to over it in
 		// one frame jumped: that is a break (or a slipped joint), not buckling.
-		if p := prevValid(x, f); p >= 0 && x[p]-mu < 0.25*floor {
+		if p := prevValid(x, f); p >= 0 && x[p] < 0.25*floor {
 			from = f + 1
 			continue
 		}
@@ -308,7 +316,7 @@ func bowOnset(m *Member, nb, end int) (int, string) {
 			continue
 		}
 		_, start := CUSUM{Target: mu, K: CusumCPK * sigma}.ChangePoint(x, f)
-		return start, fmt.Sprintf("bow rose from a baseline of %.2f mm; CUSUM k = %.3f mm, h = %.3f mm alarmed at frame row %d; above %.2f mm (0.5%% of %.0f mm) for %d frames from row %d", mu, c.K, c.H, alarm, floor, m.LengthMM, SustainRows, f)
+		return f, start, fmt.Sprintf("bow reached %.2f mm, 0.5%% of its %.0f mm length, and stayed above it for %d frames; it had been growing since frame row %d (Page's CUSUM on the bow: baseline %.3f mm, k = %.3f mm, h = %.3f mm, alarm at row %d)", floor, m.LengthMM, SustainRows, start, mu, c.K, c.H, alarm)
 	}
 }
 
@@ -351,15 +359,26 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 		from = onset + 1
 	}
 	// Jumps in strain compared with the baseline's frame-to-frame noise.
+	// Chord steps: the mean of three frames against the mean of the three
+	// before, less the same difference one window earlier, so a jump spread
+	// over a couple of frames stands out and a steady stretch (the trend of
+	// the twelve frames before) does not.
+	mean3 := func(r int) float64 { return (m.StrainPct[r] + m.StrainPct[r+1] + m.StrainPct[r+2]) / 3 }
+	step := func(r int) float64 {
+		if r < 15 || r+2 >= n {
+			return math.NaN()
+		}
+		return (mean3(r) - mean3(r-3)) - (mean3(r-3)-mean3(r-15))/4
+	}
 	var ds []float64
-	for r := 1; r < min(nb, n); r++ {
-		ds = append(ds, m.StrainPct[r]-m.StrainPct[r-1])
+	for r := 15; r < min(nb, n); r++ {
+		ds = append(ds, step(r))
 	}
 	_, sd, _ := robustBaseline(ds)
 	if math.IsNaN(sd) {
 		sd = 0
 	}
-	strainJump := math.Max(8*sd, 0.5) // percent
+	strainJump := math.Max(6*sd, BreakStrainPct) // percent
 	var db []float64
 	for r := 1; r < min(nb, n); r++ {
 		db = append(db, m.BowMM[r]-m.BowMM[r-1])
@@ -383,8 +402,17 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 				return r, fmt.Sprintf("lost track of point %s", m.Points[k])
 			}
 		}
-		if a, b := m.StrainPct[r], m.StrainPct[r-1]; !math.IsNaN(a) && !math.IsNaN(b) && math.Abs(a-b) > strainJump {
-			return r, fmt.Sprintf("chord length jumped by %.1f%% in one frame", a-b)
+		if st := step(r); !math.IsNaN(st) && math.Abs(st) > strainJump && r+5 < n &&
+			// and it lasts: the next six frames stay off by half as much
+			math.Abs((mean3(r)+mean3(r+3))/2-mean3(r-3)) > strainJump/2 && sameSign((mean3(r)+mean3(r+3))/2-mean3(r-3), st) {
+			// The jump is in the frame of the largest one-frame change nearby.
+			best, br := 0.0, r
+			for q := r; q <= r+2 && q < n; q++ {
+				if d := math.Abs(m.StrainPct[q] - m.StrainPct[q-1]); d > best {
+					best, br = d, q
+				}
+			}
+			return br, fmt.Sprintf("chord length stepped by %.1f%% within three frames", st)
 		}
 		if in.Tracks != nil && len(cols) >= 2 {
 			for _, k := range []int{0, len(cols) - 1} {
@@ -465,19 +493,39 @@ func res0(in Input) float64 {
 	return 1
 }
 
-// twistOnset finds the change point of a two-sided CUSUM on twist.
+// twistOnset finds where the twist of a level departs from its early
+// trend: a straight line fitted to the baseline window is extended, and a
+// two-sided CUSUM runs on the twist's departure from it (so a steady twist
+// rate is the baseline and a change of rate is the event). The departure
+// must reach TwistFloorDeg for SustainRows frames; the change point is
+// reported.
 func twistOnset(tw []float64, nb, end int) (int, string) {
-	mu, sigma, cnt := meanStd(tw[:min(nb, len(tw))])
-	if cnt < 3 {
+	var ts, ys []float64
+	for i := 0; i < min(nb, len(tw)); i++ {
+		if !math.IsNaN(tw[i]) {
+			ts = append(ts, float64(i))
+			ys = append(ys, tw[i])
+		}
+	}
+	if len(ts) < 3 {
 		return -1, ""
 	}
+	slope, icept := lineFit(ts, ys)
+	if math.IsNaN(slope) {
+		return -1, ""
+	}
+	res := make([]float64, end)
+	for i := 0; i < end; i++ {
+		res[i] = tw[i] - (icept + slope*float64(i))
+	}
+	_, sigma, _ := meanStd(res[:min(nb, end)])
 	sigma = math.Max(math.Max(sigma, diffSigma(tw[:end])), 0.01)
 	best := -1
 	var det string
 	for _, sign := range []float64{1, -1} {
 		x := make([]float64, end)
-		for i := 0; i < end; i++ {
-			x[i] = sign * (tw[i] - mu)
+		for i := range x {
+			x[i] = sign * res[i]
 		}
 		c := CUSUM{Target: 0, K: CusumK * sigma, H: CusumH * sigma}
 		f := sustainedAbove(x, TwistFloorDeg, 0)
@@ -497,13 +545,14 @@ func twistOnset(tw []float64, nb, end int) (int, string) {
 		if sign < 0 {
 			dir = "clockwise"
 		}
-		det = fmt.Sprintf("%s from above; CUSUM on twist, baseline %.2f deg, sigma %.3f deg, alarm at row %d; beyond %.2f deg for %d frames from row %d", dir, mu, sigma, alarm, TwistFloorDeg, SustainRows, f)
+		det = fmt.Sprintf("%s from above; the twist left its early trend of %.4f deg per frame (Page's CUSUM, sigma %.3f deg, alarm at row %d) and was %.2f deg off it for %d frames from row %d", dir, slope, sigma, alarm, TwistFloorDeg, SustainRows, f)
 	}
 	return best, det
 }
 
 // collapse finds the collapse row from motion energy, the top level's
-// displacement, and lost points.
+// speed, and lost points: for each signal the change point of the jump
+// that first holds above a high level for two frames.
 func collapse(res *Result, in Input, nb int) (int, string) {
 	n := len(res.Frames)
 	best, det := -1, ""
@@ -513,34 +562,26 @@ func collapse(res *Result, in Input, nb int) (int, string) {
 		}
 	}
 	if len(in.Energy) == n {
-		med, sd, cnt := robustBaseline(in.Energy[:nb])
-		if cnt >= 3 {
-			thr := med + math.Max(10*sd, math.Max(med, 1e-3))
-			for r := nb; r < n; r++ {
-				if in.Energy[r] > thr && (r+1 >= n || in.Energy[r+1] > thr) {
-					take(r, fmt.Sprintf("the whole-frame motion energy jumped to %.3g (baseline %.3g)", in.Energy[r], med))
-					break
-				}
-			}
+		if r, f := jumpStart(in.Energy, nb, 0, 2); r >= 0 {
+			take(r, fmt.Sprintf("the whole-frame motion energy rose from frame row %d and jumped to %.3g by row %d", r, in.Energy[f], f))
 		}
 	}
-	// Top level with a sway series.
+	// The top level with a sway series: its speed in mm per frame.
 	for li := len(res.Levels) - 1; li >= 0; li-- {
 		lv := &res.Levels[li]
-		var v []float64
+		v := nanSlice(n)
 		for r := 1; r < n; r++ {
-			v = append(v, math.Hypot(lv.SwayMM[r]-lv.SwayMM[r-1], lv.SettleMM[r]-lv.SettleMM[r-1]))
+			dt := 0.0
+			if !math.IsNaN(lv.TwistDeg[r]) && !math.IsNaN(lv.TwistDeg[r-1]) {
+				dt = (lv.TwistDeg[r] - lv.TwistDeg[r-1]) * math.Pi / 180 * lv.WidthMM / 2
+			}
+			v[r] = math.Sqrt(sq(lv.SwayMM[r]-lv.SwayMM[r-1]) + sq(lv.SettleMM[r]-lv.SettleMM[r-1]) + dt*dt)
 		}
-		med, sd, cnt := robustBaseline(v[:min(nb, len(v))])
-		if cnt < 3 {
+		if _, _, cnt := meanStd(v[:min(nb, n)]); cnt < 3 {
 			continue
 		}
-		thr := med + math.Max(10*sd, 1.0) // at least 1 mm per frame
-		for r := nb; r < len(v); r++ {
-			if v[r] > thr && (r+1 >= len(v) || v[r+1] > thr || math.IsNaN(v[r+1])) {
-				take(r+1, fmt.Sprintf("level %d moved %.1f mm in one frame", lv.Level, v[r]))
-				break
-			}
+		if r, f := jumpStart(v, nb, CollapseSpeedMM, 0); r >= 0 {
+			take(r, fmt.Sprintf("level %d started to move fast at frame row %d, %.1f mm in one frame by row %d", lv.Level, r, v[f], f))
 		}
 		break
 	}
@@ -562,6 +603,39 @@ func collapse(res *Result, in Input, nb int) (int, string) {
 		det = "the tower collapsed: " + det
 	}
 	return best, det
+}
+
+// CollapseSpeedMM is the smallest speed of the top level, mm per frame,
+// taken as a collapse (with ten baseline standard deviations).
+const CollapseSpeedMM = 0.5
+
+// jumpStart finds the first row f from which x stays for two rows above
+// max(mean + 10 sigma, floor, factor x mean) of the baseline window, and
+// returns where that rise began (the last rise through mean + 3 sigma)
+// and f; -1, -1 when none.
+func jumpStart(x []float64, nb int, floor, factor float64) (start, f int) {
+	mu, sd, cnt := meanStd(x[:min(nb, len(x))])
+	if cnt < 3 {
+		return -1, -1
+	}
+	sd = math.Max(sd, diffSigma(x[:min(nb, len(x))]))
+	level := math.Max(math.Max(mu+10*sd, floor), factor*mu)
+	f = -1
+	for r := nb; r < len(x); r++ {
+		if x[r] >= level && (r+1 >= len(x) || x[r+1] >= level || math.IsNaN(x[r+1])) {
+			f = r
+			break
+		}
+	}
+	if f < 0 {
+		return -1, -1
+	}
+	// The rise starts where the signal last came up through mean + 3 sigma.
+	start = f
+	for start > nb && (math.IsNaN(x[start-1]) || x[start-1] > mu+3*sd) {
+		start--
+	}
+	return start, f
 }
 
 func peakFrac(m *Member, from, end int) float64 {
@@ -730,3 +804,5 @@ func adviceFor(mode string, first *Member, res *Result) []string {
 	}
 	return a
 }
+
+func sameSign(a, b float64) bool { return (a > 0) == (b > 0) }

@@ -52,8 +52,10 @@ func TestDiagnoseScenarios(t *testing.T) {
 					return (id == "AB-d2-mid" && f >= 200) || f >= 206
 				}
 			},
-			collapse: 206, first: "AB-d2", onset: 150, mode: ModeBraceBuckling,
-			account: []string{"diagonal AB-d2 between levels 1 and 2 began to bow at 0.15", "broke at 0.200 s", "collapse followed 6 ms later"},
+			// Onset (shared with the synthesizer): the first frame where the
+			// bow reaches 0.5 % of the 107.0 mm length, 0.535 mm: 150 + 0.535/0.04 -> 164.
+			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling,
+			account: []string{"diagonal AB-d2 between levels 1 and 2 began to bow at 0.16", "broke at 0.200 s", "collapse followed 6 ms later"},
 		},
 		{
 			name: "leg buckles over its full height",
@@ -67,8 +69,10 @@ func TestDiagnoseScenarios(t *testing.T) {
 				}
 				s.lost = func(id string, f int) bool { return f >= 230 }
 			},
-			collapse: 230, first: "leg-A", onset: 120, mode: ModeLegFullHeight,
-			account: []string{"leg A (leg-A) between levels 0 and 4 began to bow at 0.12", "collapsed in the same frame"},
+			// 0.5 % of the 282.2 mm leg is 1.41 mm, reached at mid-height at
+			// 120 + 1.41/0.05 -> frame 149.
+			collapse: 230, first: "leg-A", onset: 149, mode: ModeLegFullHeight,
+			account: []string{"leg A (leg-A) between levels 0 and 4 began to bow at 0.1", "collapsed in the same frame"},
 		},
 		{
 			name: "tower twists, no member bows",

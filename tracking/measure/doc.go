@@ -29,24 +29,34 @@
 //
 // # Events
 //
-// Member buckling onset is found by Page's one-sided CUSUM on the member's
-// bow (mm) against a baseline taken from an early window of the clip, with
-// reference value k = 0.5 sigma and decision interval h = 5 sigma, and
-// confirmed only when the bow exceeds the baseline by at least 0.5 % of the
-// member's length for several consecutive frames. The reported frame is the
-// change point (the start of the CUSUM run), not the alarm. A break is a
-// sudden jump of the chord length or of an end point, a lost track on one of
-// the member's points, or a collapse of the bow after onset. Twist onset is a
-// two-sided CUSUM on the top observable level's twist. Collapse is a jump of
-// the motion energy (when given) or of the top level's displacement.
+// A member's buckling onset is the first frame from which its bow stays at
+// or above 0.5 % of its length for several frames (SustainRows), provided
+// Page's one-sided CUSUM on the bow has signalled a departure from the
+// baseline taken in an early window (reference value k = 0.5 sigma,
+// decision interval h = 5 sigma); the CUSUM's change point (where the bow
+// began to grow) is given in the event's detail. A bow is the 3D distance of
+// an interior point from the member's chord: bending moves points
+// perpendicular to the member, and with a camera fitted to the marked points
+// both components of that offset are read from the image while the member
+// keeps its place. A break is a sudden jump of the chord length or of an end
+// point, a lost track on one of the member's points, or a collapse of the
+// bow after onset. Twist onset is where the top observable level's twist
+// leaves its early trend (a two-sided CUSUM on the departure, at least
+// TwistFloorDeg). Collapse is a jump of the motion energy (when given), of
+// the top level's displacement, or the loss of most points.
+//
+// A level's twist and sway are those of the mean of its four corners: a
+// corner carried off by its own bending leg is left out of the rigid fit
+// and then added back with a quarter weight, as the mean of the corners
+// takes it.
 //
 // # Failure modes
 //
 // Diagnose labels a failure with one of these, checked in this order:
 //
-//   - tower_twist: the tower's twist started (twist_onset) before any member
-//     began to bow, or no member bowed but the top level twisted by more than
-//     TwistModeDeg before collapse.
+//   - tower_twist: no member began to bow before the collapse, the top
+//     observable level's twist left its early trend (twist_onset), and it
+//     had twisted by TwistModeDeg or more before the collapse.
 //   - leg_full_height: the first member to go is a leg and its deflected
 //     shape is one half-wave over the leg's whole height (K near 1).
 //   - leg_between_braces: the first member to go is a leg and its deflected

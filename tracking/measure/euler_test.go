@@ -181,11 +181,10 @@ func TestMeasureLegShapes(t *testing.T) {
 		// sqrt(25^2 + 25^2 + 280^2) = 282.22 mm long.
 		lean := math.Atan(25 * (math.Cos(25*math.Pi/180) + math.Sin(25*math.Pi/180)) / 280)
 		legLen := math.Sqrt(25*25 + 25*25 + 280*280)
-		// The scale bar A0-A4 leans out of the image plane, so the marks'
-		// scale is 0.3 x 282.22 / 281.96 mm/px, and the deflection reads
-		// (5.7 / 0.3) px times that.
-		sc, _ := m.MMPerPixel()
-		want := 5.7 / 0.3 * sc * math.Cos(lean)
+		// The deflection is the distance from the leg's chord: the 5.7 mm
+		// sideways offset times the cosine of the leg's lean from vertical
+		// in the view plane.
+		want := 5.7 * math.Cos(lean)
 		if tc.waves == 1 {
 			if d := leg.DeflectionMM[19][4]; math.Abs(math.Abs(d)-want) > 1e-6 {
 				t.Errorf("mid-height deflection %g mm, want %g", d, want)

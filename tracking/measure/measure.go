@@ -83,7 +83,10 @@ type Member struct {
 	// LengthMM is the member's length: from the plan and level heights when
 	// both ends have them, otherwise the chord in the reference frame times the scale.
 	LengthMM float64
-	// StrainPct is the chord length change relative to the reference frame, percent (+ = longer).
+	// StrainPct is the chord length change relative to the reference frame,
+	// percent (+ = longer). With a fitted camera and ends at levels, the
+	// change of the chord's image length that the levels' rigid motions
+	// explain (a member turning with its level looks shorter) is divided out.
 	StrainPct []float64
 	// BowMM is the largest perpendicular offset of an interior point from the
 	// chord, change since the reference frame, mm (>= 0; NaN without interior points).
@@ -148,6 +151,130 @@ type geom struct {
 	order  []string
 	n      int
 	undist func(x, y float64) (float64, float64)
+	cam    *Pinhole             // nil when no camera could be fitted
+	excess map[string][]float64 // per joint id, per row: deflection beyond what the levels' motion explains, mm
+}
+
+// jointExcess returns, for each leg joint between its leg's end levels,
+// its sideways deflection from the leg's chord (mm, undoing the lean of the
+// leg's image) minus the deflection a twist varying linearly with height
+// between the leg's end levels (from the rigid first pass) would give it.
+// What is left is the level's common sideways offset plus the leg's own
+// bending; comparing joints of one level separates the two.
+func (g *geom) jointExcess(legs []Leg, levels []Level) map[string][]float64 {
+	_, c := camera(g.in.Marks)
+	byLevel := map[int]*Level{}
+	for i := range levels {
+		byLevel[levels[i].Level] = &levels[i]
+	}
+	out := map[string][]float64{}
+	for li := range legs {
+		l := &legs[li]
+		n := len(l.Points)
+		ps := make([]*point, n)
+		for k, id := range l.Points {
+			ps[k] = g.pts[id]
+		}
+		a, b := ps[0], ps[n-1]
+		la, lb := byLevel[a.level], byLevel[b.level]
+		if a.level < 0 || b.level < 0 || !a.hasPlan || !b.hasPlan || !a.hasH || !b.hasH || la == nil || lb == nil || b.height <= a.height {
+			continue
+		}
+		cosLean := math.Abs(b.ref[1]-a.ref[1]) / math.Hypot(b.ref[0]-a.ref[0], b.ref[1]-a.ref[1])
+		ea := a.plan[0]*c[0] + a.plan[1]*c[1]
+		eb := b.plan[0]*c[0] + b.plan[1]*c[1]
+		for k := 1; k < n-1; k++ {
+			p := ps[k]
+			if p.level < 0 || !p.hasPlan || !p.hasH {
+				continue
+			}
+			ep := p.plan[0]*c[0] + p.plan[1]*c[1]
+			t := (p.height - a.height) / (b.height - a.height)
+			ex := nanSlice(g.n)
+			for row := 0; row < g.n; row++ {
+				ta, tb := la.TwistDeg[row]*math.Pi/180, lb.TwistDeg[row]*math.Pi/180
+				tp := ta + t*(tb-ta)
+				pred := tp*ep - ((1-t)*ta*ea + t*tb*eb)
+				ex[row] = l.DeflectionMM[row][k]/cosLean - pred
+			}
+			// A leg bends over many frames; a median over ExcessWindow rows
+			// keeps a single noisy row from taking a joint out of its level.
+			out[p.id] = movingMedian(ex, ExcessWindow)
+		}
+	}
+	return out
+}
+
+// ExcessWindow is the number of rows in the moving median of a joint's
+// excess deflection.
+const ExcessWindow = 9
+
+// movingMedian returns the trailing moving median of x over w rows: each
+// row's value from that row and the w-1 before it, so that what happens
+// later (a collapse) never leaks back into earlier rows (NaN values skipped;
+// NaN where a row itself is NaN).
+func movingMedian(x []float64, w int) []float64 {
+	out := make([]float64, len(x))
+	buf := make([]float64, 0, w)
+	for i := range x {
+		if math.IsNaN(x[i]) {
+			out[i] = math.NaN()
+			continue
+		}
+		buf = buf[:0]
+		for j := max(0, i-w+1); j <= i; j++ {
+			if !math.IsNaN(x[j]) {
+				buf = append(buf, x[j])
+			}
+		}
+		out[i] = median(buf)
+	}
+	return out
+}
+
+// bowingJoint returns the index in ps of a leg joint that the bending of
+// its leg has carried away from the level's rigid motion in this row, or -1.
+// Among three or more joints with a known excess deflection (jointExcess),
+// the one that differs most from the mean of the others is taken when it
+// differs by at least JointBowMM and by three times the others' spread.
+func (g *geom) bowingJoint(ps []*point, row int) int {
+	var idx []int
+	var r []float64
+	for i, p := range ps {
+		ex, ok := g.excess[p.id]
+		if !ok || row >= len(ex) || math.IsNaN(ex[row]) {
+			continue
+		}
+		idx = append(idx, i)
+		r = append(r, ex[row])
+	}
+	if len(r) < 3 {
+		return -1
+	}
+	best, bi := 0.0, -1
+	for j := range r {
+		others := without(r, j)
+		if d := math.Abs(r[j] - mean(others)); d > best && d >= 3*spread(others) {
+			best, bi = d, idx[j]
+		}
+	}
+	if bi < 0 || best < JointBowMM {
+		return -1
+	}
+	return bi
+}
+
+// cornerShare spreads a joint's own sideways displacement delta (mm along
+// the camera's right vector r) over the level as the mean of its four
+// corners does: the twist changes by (rho x delta r) / (4 |rho|^2) rad and
+// the sway by delta / 4, where rho is the joint's plan position from the
+// level centre.
+func cornerShare(rho, r [2]float64, delta float64) (dTwist, dSway float64) {
+	r2 := rho[0]*rho[0] + rho[1]*rho[1]
+	if r2 == 0 {
+		return 0, delta / 4
+	}
+	return (rho[0]*r[1] - rho[1]*r[0]) * delta / (4 * r2), delta / 4
 }
 
 func (g *geom) at(p *point, row int) (x, y float64, ok bool) {
@@ -219,9 +346,18 @@ func Measure(in Input) (*Result, error) {
 	if note != "" {
 		res.Notes = append(res.Notes, note)
 	}
-	res.Levels, res.Notes = g.levels(res.Notes)
-	res.Members = g.members()
+	var camNote string
+	g.cam, camNote = g.fitCamera()
+	if camNote != "" {
+		res.Notes = append(res.Notes, camNote)
+	}
 	res.Legs = g.legs()
+	// Two passes: the levels as rigid figures, then again with any joint
+	// that its own bending leg carried away from its level handled apart.
+	rigid, _ := g.levels(nil)
+	g.excess = g.jointExcess(res.Legs, rigid)
+	res.Levels, res.Notes = g.levels(res.Notes)
+	res.Members = g.members(res.Levels)
 	return res, nil
 }
 
@@ -301,10 +437,7 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 	}
 	sort.Ints(nums)
 	r, c := camera(g.in.Marks)
-	cam, camNote := g.fitCamera()
-	if camNote != "" {
-		notes = append(notes, camNote)
-	}
+	cam := g.cam
 	azNote := "; mark points on two faces and film from a camera azimuth of roughly 15-35 degrees off a face so the points sit at different depths"
 	var out []Level
 	for _, lv := range nums {
@@ -351,6 +484,7 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 		for row := 0; row < g.n; row++ {
 			var qs, es, us []float64
 			var dv []float64
+			var vp []*point
 			for i, p := range ps {
 				x, y, ok := g.at(p, row)
 				if !ok {
@@ -360,6 +494,7 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 				es = append(es, e[i])
 				us = append(us, sL*(x-p.ref[0])+q[i])
 				dv = append(dv, sL*(y-p.ref[1]))
+				vp = append(vp, p)
 			}
 			if len(dv) > 0 {
 				L.SettleMM[row] = mean(dv)
@@ -368,8 +503,26 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 				continue
 			}
 			if L.Observable && spread(es) >= MinDepthFrac*L.WidthMM {
-				th, a, ok := FitTwist(qs, es, us)
+				// A joint carried off by its bending leg is left out of the
+				// rigid fit and added back as the mean of the corners does.
+				bj := g.bowingJoint(vp, row)
+				fq, fe, fu := qs, es, us
+				if bj >= 0 {
+					fq, fe, fu = without(qs, bj), without(es, bj), without(us, bj)
+					if len(fq) < 2 || spread(fe) < MinDepthFrac*L.WidthMM {
+						bj, fq, fe, fu = -1, qs, es, us
+					}
+				}
+				th, a, ok := FitTwist(fq, fe, fu)
 				if ok {
+					if bj >= 0 {
+						ct, st := math.Cos(th), math.Sin(th)
+						delta := us[bj] - (ct*qs[bj] + st*es[bj] + a)
+						pl := vp[bj].plan
+						dt, ds := cornerShare([2]float64{ct*pl[0] - st*pl[1], st*pl[0] + ct*pl[1]}, r, delta)
+						th += dt
+						a += ds
+					}
 					L.TwistDeg[row] = th * 180 / math.Pi
 					L.SwayMM[row] = a
 				}
@@ -415,6 +568,17 @@ func (g *geom) fitCamera() (*Pinhole, string) {
 	return cam, ""
 }
 
+// DepthPriorWeakMM and DepthPriorMM are the departures of a level's motion
+// toward the camera, in mm, that cost as much as one pixel of misfit in the
+// perspective level fit: weak while that motion is first estimated, firm
+// around its smoothed value in the final fit. Such motion shows only as a
+// slight change of scale, so left free in each frame it would soak up
+// tracking noise and pull the twist with it.
+const (
+	DepthPriorWeakMM = 50.0
+	DepthPriorMM     = 0.5
+)
+
 // MaxCameraRMS is the largest reprojection error, px, at which the fitted
 // pinhole camera is trusted for perspective-corrected level motion.
 const MaxCameraRMS = 3.0
@@ -423,11 +587,28 @@ const MaxCameraRMS = 3.0
 // through the pinhole camera wherever that fit succeeds.
 func (g *geom) perspectiveLevel(cam *Pinhole, L *Level, ps []*point, toward [2]float64) {
 	r, _ := camera(g.in.Marks)
+	// Pass 1 finds the slow motion toward the camera with a weak prior; pass
+	// 2 solves every row again with that motion, smoothed over time, as a
+	// firm prior, so tracking noise cannot trade depth for twist.
+	depth := nanSlice(g.n)
+	g.perspectivePass(cam, L, ps, toward, r, nil, depth)
+	g.perspectivePass(cam, L, ps, toward, r, movingMedian(depth, DepthWindow), nil)
+}
+
+// DepthWindow is the number of rows over which a level's motion toward the
+// camera is smoothed (a moving median) before the final perspective fit.
+const DepthWindow = 15
+
+// perspectivePass fits every row of one level through the camera; with
+// prior == nil it uses a weak depth prior at 0 and records the fitted
+// depth motion in depthOut, otherwise it holds the depth near prior[row].
+func (g *geom) perspectivePass(cam *Pinhole, L *Level, ps []*point, toward, r [2]float64, prior, depthOut []float64) {
 	var x0 [4]float64
 	for row := 0; row < g.n; row++ {
 		var xyz [][3]float64
 		var ref, obs [][2]float64
 		var es []float64
+		var vp []*point
 		for _, p := range ps {
 			x, y, ok := g.at(p, row)
 			if !ok {
@@ -437,6 +618,7 @@ func (g *geom) perspectiveLevel(cam *Pinhole, L *Level, ps []*point, toward [2]f
 			ref = append(ref, p.ref)
 			obs = append(obs, [2]float64{x, y})
 			es = append(es, p.plan[0]*toward[0]+p.plan[1]*toward[1])
+			vp = append(vp, p)
 		}
 		if len(xyz) < 2 {
 			continue
@@ -448,15 +630,54 @@ func (g *geom) perspectiveLevel(cam *Pinhole, L *Level, ps []*point, toward [2]f
 		if !twist {
 			x0[0] = 0
 		}
-		x, ok := cam.levelPose(xyz, ref, obs, toward, x0, 50, twist)
+		bj := -1
+		fx, fr, fo := xyz, ref, obs
+		if twist {
+			if bj = g.bowingJoint(vp, row); bj >= 0 {
+				if fe := without(es, bj); len(fe) >= 2 && spread(fe) >= MinDepthFrac*L.WidthMM {
+					fx, fr, fo = without3(xyz, bj), without2(ref, bj), without2(obs, bj)
+				} else {
+					bj = -1
+				}
+			}
+		}
+		p0, pmm := 0.0, DepthPriorWeakMM
+		if prior != nil {
+			if p0, pmm = prior[row], DepthPriorMM; math.IsNaN(p0) {
+				p0, pmm = 0, DepthPriorWeakMM
+			}
+		}
+		x, ok := cam.levelPose(fx, fr, fo, toward, x0, p0, pmm, twist)
 		if !ok {
 			continue
 		}
 		x0 = x
-		if twist {
-			L.TwistDeg[row] = x[0] * 180 / math.Pi
+		if depthOut != nil {
+			depthOut[row] = x[1]*toward[0] + x[2]*toward[1]
+			continue
 		}
-		L.SwayMM[row] = x[1]*r[0] + x[2]*r[1]
+		th, sway := x[0], x[1]*r[0]+x[2]*r[1]
+		if bj >= 0 {
+			// The joint's own sideways displacement: observed minus the
+			// level's rigid motion, in mm along r at the joint.
+			p := xyz[bj]
+			ct, st := math.Cos(th), math.Sin(th)
+			mx, my := ct*p[0]-st*p[1]+x[1], st*p[0]+ct*p[1]+x[2]
+			u1, _, ok1 := cam.Project(mx, my, p[2]-x[3])
+			u0, _, ok0 := cam.Project(p[0], p[1], p[2])
+			ur, _, okr := cam.Project(mx+r[0], my+r[1], p[2]-x[3])
+			if ok1 && ok0 && okr && ur != u1 {
+				pred := ref[bj][0] + u1 - u0
+				delta := (obs[bj][0] - pred) / (ur - u1)
+				dt, ds := cornerShare([2]float64{ct*p[0] - st*p[1], st*p[0] + ct*p[1]}, r, delta)
+				th += dt
+				sway += ds
+			}
+		}
+		if twist {
+			L.TwistDeg[row] = th * 180 / math.Pi
+		}
+		L.SwayMM[row] = sway
 		L.SettleMM[row] = x[3]
 	}
 }
@@ -494,3 +715,22 @@ func lineFit(x, y []float64) (slope, icept float64) {
 	slope = sxy / sxx
 	return slope, my - slope*mx
 }
+
+func without(x []float64, i int) []float64 {
+	return append(append([]float64(nil), x[:i]...), x[i+1:]...)
+}
+
+func without2(x [][2]float64, i int) [][2]float64 {
+	return append(append([][2]float64(nil), x[:i]...), x[i+1:]...)
+}
+
+func without3(x [][3]float64, i int) [][3]float64 {
+	return append(append([][3]float64(nil), x[:i]...), x[i+1:]...)
+}
+
+// JointBowMM is the smallest deflection of a joint from its leg's chord,
+// beyond what the levels' motion explains, in mm, for which the joint is
+// treated as carried by its bending leg rather than moving with its level
+// (well above tracking noise, small enough that a bending leg barely pulls
+// the level's fit; common practice).
+const JointBowMM = 0.1

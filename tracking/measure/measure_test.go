@@ -148,9 +148,11 @@ func TestMeasureLevelsPinholeAndOrtho(t *testing.T) {
 		tolSettle float64 // mm
 	}{
 		{"orthographic az 25", true, false, 25, 1e-6, 1e-6, 1e-6},
-		{"pinhole az 25", false, false, 25, 0.02, 0.01, 0.05},
-		{"pinhole az 35", false, false, 35, 0.02, 0.01, 0.05},
-		{"pinhole az -20", false, false, -20, 0.02, 0.01, 0.05},
+		// The top level moves 5 mm toward the camera in 120 frames; the fit
+		// follows such motion over the last DepthWindow frames.
+		{"pinhole az 25", false, false, 25, 0.02, 0.01, 0.1},
+		{"pinhole az 35", false, false, 35, 0.02, 0.01, 0.1},
+		{"pinhole az -20", false, false, -20, 0.02, 0.01, 0.1},
 		// Without level heights no camera can be fitted: the near-orthographic
 		// model alone, 1.5 m from a 280 mm tower, is good to a few tenths.
 		{"pinhole az 25, orthographic model", false, true, 25, 0.5, 0.1, 0.6},
@@ -164,12 +166,12 @@ func TestMeasureLevelsPinholeAndOrtho(t *testing.T) {
 			if tc.ortho {
 				s.dist, s.focal = 0, 1/0.3
 			}
-			s.frames = 40
-			s.twist = func(l, f int) float64 { return 4 * float64(l) / 4 * float64(f) / 39 }
+			s.frames = 120
+			s.twist = func(l, f int) float64 { return 4 * float64(l) / 4 * float64(f) / 119 }
 			s.sway = func(l, f int) [2]float64 {
-				return [2]float64{6 * float64(l) / 4 * float64(f) / 39, -3 * float64(l) / 4 * float64(f) / 39}
+				return [2]float64{6 * float64(l) / 4 * float64(f) / 119, -3 * float64(l) / 4 * float64(f) / 119}
 			}
-			s.settle = func(l, f int) float64 { return 0.5 * float64(f) / 39 }
+			s.settle = func(l, f int) float64 { return 0.5 * float64(f) / 119 }
 			m, tr := s.build()
 			if tc.noHeights {
 				for i := range m.Points {
@@ -236,11 +238,12 @@ func TestMeasureMembers(t *testing.T) {
 	if math.Abs(d2.LengthMM-want) > 1e-9 {
 		t.Errorf("length %.4f, want %.4f", d2.LengthMM, want)
 	}
-	// A bow in the face plane seen at 25 deg: the face is foreshortened
-	// sideways by cos 25 but the bow's vertical part is not; the image bow
-	// is between cos(25)*3 and 3 mm at frame 10.
-	if b := d2.BowMM[10]; b < 3*math.Cos(25*math.Pi/180)-1e-6 || b > 3+1e-6 {
-		t.Errorf("bow at frame 10 %.4f mm, want between %.3f and 3", b, 3*math.Cos(25*math.Pi/180))
+	// A 3 mm bow in the face plane, seen at 25 deg: the face is
+	// foreshortened sideways by cos 25, but the bow is perpendicular to the
+	// chord and the camera sees that plane from two directions, so the full
+	// 3D bow comes back.
+	if b := d2.BowMM[10]; math.Abs(b-3) > 1e-6 {
+		t.Errorf("bow at frame 10 %.6f mm, want 3", b)
 	}
 	if math.Abs(d2.BowFrac[10]-d2.BowMM[10]/want) > 1e-12 {
 		t.Error("bow fraction is not bow over length")

@@ -7,7 +7,49 @@ import (
 )
 
 // members computes chord strain, rotation and bow of every member.
-func (g *geom) members() []Member {
+func (g *geom) members(levels []Level) []Member {
+	byLevel := map[int]*Level{}
+	for i := range levels {
+		byLevel[levels[i].Level] = &levels[i]
+	}
+	r, _ := camera(g.in.Marks)
+	// predicted returns the image length and the 3D length of the chord
+	// a-b after the rigid motions of the ends' levels (twist, sway,
+	// settlement), or NaN.
+	predicted := func(a, b *point, row int) (float64, float64) {
+		if g.cam == nil {
+			return math.NaN(), math.NaN()
+		}
+		var uv [2][2]float64
+		var xyz [2][3]float64
+		for k, p := range []*point{a, b} {
+			lv := byLevel[p.level]
+			if p.level < 0 || !p.hasPlan || !p.hasH || lv == nil {
+				return math.NaN(), math.NaN()
+			}
+			th, sw, st := 0.0, 0.0, 0.0
+			if row >= 0 {
+				sw, st = lv.SwayMM[row], lv.SettleMM[row]
+				if lv.Observable {
+					th = lv.TwistDeg[row] * math.Pi / 180
+				}
+			}
+			if math.IsNaN(th) || math.IsNaN(sw) || math.IsNaN(st) {
+				return math.NaN(), math.NaN()
+			}
+			ct, sn := math.Cos(th), math.Sin(th)
+			x := ct*p.plan[0] - sn*p.plan[1] + sw*r[0]
+			y := sn*p.plan[0] + ct*p.plan[1] + sw*r[1]
+			u, v, ok := g.cam.Project(x, y, p.height-st)
+			if !ok {
+				return math.NaN(), math.NaN()
+			}
+			uv[k] = [2]float64{u, v}
+			xyz[k] = [3]float64{x, y, p.height - st}
+		}
+		return math.Hypot(uv[1][0]-uv[0][0], uv[1][1]-uv[0][1]),
+			norm3([3]float64{xyz[1][0] - xyz[0][0], xyz[1][1] - xyz[0][1], xyz[1][2] - xyz[0][2]})
+	}
 	var out []Member
 	for _, mm := range g.in.Marks.Members {
 		M := Member{ID: mm.ID, Kind: mm.Kind, Points: append([]string(nil), mm.Points...), Levels: [2]int{-1, -1},
@@ -35,8 +77,28 @@ func (g *geom) members() []Member {
 		}
 		refAng := math.Atan2(-(b.ref[1] - a.ref[1]), b.ref[0]-a.ref[0])
 		refOff := make([]float64, len(ps))
+		refVec := make([][2]float64, len(ps))
+		tpar := make([]float64, len(ps))
+		models := make([]*bowModel, len(ps))
 		for i := 1; i < len(ps)-1; i++ {
 			refOff[i] = perpOffset(a.ref, b.ref, ps[i].ref)
+			tpar[i] = chordParam(a.ref, b.ref, ps[i].ref)
+			refVec[i] = [2]float64{ps[i].ref[0] - (a.ref[0] + tpar[i]*(b.ref[0]-a.ref[0])), ps[i].ref[1] - (a.ref[1] + tpar[i]*(b.ref[1]-a.ref[1]))}
+			models[i] = g.newBowModel(a, b, tpar[i])
+		}
+		// Turning with its levels changes a member's length in the image
+		// but not in the tower. Where the ends' level motions are known, the
+		// strain is the 3D length those motions give times what the image
+		// shows beyond their predicted image length (both smoothed over
+		// time, as level fits are noisy frame by frame).
+		ratio, len3 := nanSlice(g.n), nanSlice(g.n)
+		if p0, q0 := predicted(a, b, -1); p0 > 0 && q0 > 0 {
+			for row := 0; row < g.n; row++ {
+				p, q := predicted(a, b, row)
+				ratio[row], len3[row] = p/p0, q/q0
+			}
+			ratio = trailingLine(ratio, ExcessWindow)
+			len3 = trailingLine(len3, ExcessWindow)
 		}
 		for row := 0; row < g.n; row++ {
 			ax, ay, okA := g.at(a, row)
@@ -45,7 +107,11 @@ func (g *geom) members() []Member {
 				continue
 			}
 			l := math.Hypot(bx-ax, by-ay)
-			M.StrainPct[row] = 100 * (l - refLen) / refLen
+			rawStrain := 100 * (l - refLen) / refLen
+			M.StrainPct[row] = rawStrain
+			if ratio[row] > 0 && len3[row] > 0 {
+				M.StrainPct[row] = 100 * (len3[row]*(l/refLen)/ratio[row] - 1)
+			}
 			ang := math.Atan2(-(by - ay), bx-ax)
 			M.RotationDeg[row] = wrapDeg((ang - refAng) * 180 / math.Pi)
 			bow, seen := 0.0, false
@@ -54,7 +120,20 @@ func (g *geom) members() []Member {
 				if !ok {
 					continue
 				}
-				d := math.Abs(perpOffset([2]float64{ax, ay}, [2]float64{bx, by}, [2]float64{x, y})-refOff[i]) * g.s
+				var d float64
+				if models[i] != nil {
+					dx := x - (ax + tpar[i]*(bx-ax)) - refVec[i][0]
+					dy := y - (ay + tpar[i]*(by-ay)) - refVec[i][1]
+					// The offset along the chord holds the oblique part of
+					// the bow only while the member keeps its place; once its
+					// chord has stretched or turned, perspective shifts the
+					// interior point along the chord too, so only the
+					// always-visible part is used.
+					still := math.Abs(rawStrain) <= BowStillStrainPct && math.Abs(M.RotationDeg[row]) <= BowStillRotationDeg
+					d = models[i].bow(dx, dy, still)
+				} else {
+					d = math.Abs(perpOffset([2]float64{ax, ay}, [2]float64{bx, by}, [2]float64{x, y})-refOff[i]) * g.s
+				}
 				bow, seen = math.Max(bow, d), true
 			}
 			if seen {
@@ -119,6 +198,7 @@ func (g *geom) legs() []Leg {
 		}
 		tpos := make([]float64, len(ps))
 		refOff := make([]float64, len(ps))
+		scale := make([]float64, len(ps))
 		ux, uy := (b.ref[0]-a.ref[0])/refLen, (b.ref[1]-a.ref[1])/refLen
 		for i, p := range ps {
 			L.Points = append(L.Points, p.id)
@@ -128,6 +208,7 @@ func (g *geom) legs() []Leg {
 			}
 			L.HeightsMM = append(L.HeightsMM, tpos[i]*L.LengthMM)
 			refOff[i] = perpOffset(a.ref, b.ref, p.ref)
+			scale[i] = g.offsetScale(a, b, p, false)
 		}
 		interiorT := tpos[1 : len(ps)-1]
 		thr := legThreshold(L.LengthMM)
@@ -145,7 +226,7 @@ func (g *geom) legs() []Leg {
 						all = false
 						continue
 					}
-					d[i] = (perpOffset([2]float64{ax, ay}, [2]float64{bx, by}, [2]float64{x, y}) - refOff[i]) * g.s
+					d[i] = (perpOffset([2]float64{ax, ay}, [2]float64{bx, by}, [2]float64{x, y}) - refOff[i]) * scale[i]
 				}
 			}
 			L.DeflectionMM = append(L.DeflectionMM, d)
@@ -276,4 +357,213 @@ func HalfWaves(t, d []float64, maxN int) (n int, amp float64) {
 		}
 	}
 	return n, amp
+}
+
+// offsetScale returns the millimetres per pixel of a sideways offset of
+// point p from the chord a-b, as seen in the image. With a fitted camera and
+// 3D end points it projects a 1 mm offset at p's place on the member: for a
+// brace, perpendicular to the chord within the face the brace lies in (a
+// brace bows within its face or out of it; in the face is the assumption);
+// otherwise perpendicular to both the chord and the view direction (the
+// smallest 3D offset that explains the image). Without a camera it is the
+// marks' scale.
+func (g *geom) offsetScale(a, b, p *point, brace bool) float64 {
+	if g.cam == nil || !a.hasPlan || !b.hasPlan || !a.hasH || !b.hasH {
+		return g.s
+	}
+	A := [3]float64{a.plan[0], a.plan[1], a.height}
+	B := [3]float64{b.plan[0], b.plan[1], b.height}
+	chord := [3]float64{B[0] - A[0], B[1] - A[1], B[2] - A[2]}
+	cl := norm3(chord)
+	dpx := math.Hypot(b.ref[0]-a.ref[0], b.ref[1]-a.ref[1])
+	if cl == 0 || dpx == 0 {
+		return g.s
+	}
+	// p's place along the chord, from the image.
+	t := ((p.ref[0]-a.ref[0])*(b.ref[0]-a.ref[0]) + (p.ref[1]-a.ref[1])*(b.ref[1]-a.ref[1])) / (dpx * dpx)
+	P := [3]float64{A[0] + t*chord[0], A[1] + t*chord[1], A[2] + t*chord[2]}
+	_, c := camera(g.in.Marks)
+	view := [3]float64{-c[0], -c[1], 0}
+	minNorm := unit3(cross3(chord, view))
+	dir := minNorm
+	if brace && a.leg != "" && b.leg != "" && a.leg != b.leg {
+		pa, _ := legPlanDir(a.leg)
+		pb, _ := legPlanDir(b.leg)
+		n := unit3([3]float64{pa[0] + pb[0], pa[1] + pb[1], 0}) // the face's outward normal
+		if norm3(n) > 0 {
+			if d := unit3(cross3(n, chord)); norm3(d) > 0 {
+				dir = d
+			}
+		}
+	}
+	nx, ny := -(b.ref[1]-a.ref[1])/dpx, (b.ref[0]-a.ref[0])/dpx // image normal of the chord
+	pxPerMM := func(d [3]float64) float64 {
+		u0, v0, ok0 := g.cam.Project(P[0], P[1], P[2])
+		u1, v1, ok1 := g.cam.Project(P[0]+d[0], P[1]+d[1], P[2]+d[2])
+		if !ok0 || !ok1 {
+			return 0
+		}
+		return math.Abs((u1-u0)*nx + (v1-v0)*ny)
+	}
+	f := pxPerMM(dir)
+	if f < 0.5/g.s {
+		f = pxPerMM(minNorm) // the face is seen nearly edge-on: fall back
+	}
+	if !(f > 0.5/g.s) || !(f < 2/g.s) {
+		return g.s
+	}
+	return 1 / f
+}
+
+// legPlanDir returns the plan direction of a leg's corner from the axis.
+func legPlanDir(leg string) ([2]float64, bool) {
+	switch leg {
+	case "A":
+		return [2]float64{-1, -1}, true
+	case "B":
+		return [2]float64{1, -1}, true
+	case "C":
+		return [2]float64{1, 1}, true
+	case "D":
+		return [2]float64{-1, 1}, true
+	}
+	return [2]float64{}, false
+}
+
+func cross3(a, b [3]float64) [3]float64 {
+	return [3]float64{a[1]*b[2] - a[2]*b[1], a[2]*b[0] - a[0]*b[2], a[0]*b[1] - a[1]*b[0]}
+}
+
+func norm3(a [3]float64) float64 { return math.Sqrt(a[0]*a[0] + a[1]*a[1] + a[2]*a[2]) }
+
+func unit3(a [3]float64) [3]float64 {
+	n := norm3(a)
+	if n == 0 {
+		return a
+	}
+	return [3]float64{a[0] / n, a[1] / n, a[2] / n}
+}
+
+// chordParam is p's position along the chord a-b (0 at a, 1 at b), in the image.
+func chordParam(a, b, p [2]float64) float64 {
+	dx, dy := b[0]-a[0], b[1]-a[1]
+	l2 := dx*dx + dy*dy
+	if l2 == 0 {
+		return 0.5
+	}
+	return ((p[0]-a[0])*dx + (p[1]-a[1])*dy) / l2
+}
+
+// bowModel turns an interior point's image offset from its chord into a 3D
+// bow in mm. Bending moves a member's points perpendicular to its axis, so
+// the bow lies in the plane perpendicular to the chord; the camera sees that
+// plane through the 2x2 matrix M (px per mm along two directions e1, e2 in
+// it). e1 is perpendicular to the view direction (always visible); e2 is the
+// other, seen only when the member is oblique to the camera. When M is well
+// conditioned the full 2D offset gives both components; otherwise only the
+// e1 component is used (the smallest 3D bow that explains the image).
+type bowModel struct {
+	m    [2][2]float64 // columns: image of e1, e2 (px per mm)
+	inv  [2][2]float64
+	full bool
+}
+
+func (g *geom) newBowModel(a, b *point, t float64) *bowModel {
+	if g.cam == nil || !a.hasPlan || !b.hasPlan || !a.hasH || !b.hasH {
+		return nil
+	}
+	A := [3]float64{a.plan[0], a.plan[1], a.height}
+	B := [3]float64{b.plan[0], b.plan[1], b.height}
+	chord := [3]float64{B[0] - A[0], B[1] - A[1], B[2] - A[2]}
+	if norm3(chord) == 0 {
+		return nil
+	}
+	P := [3]float64{A[0] + t*chord[0], A[1] + t*chord[1], A[2] + t*chord[2]}
+	_, c := camera(g.in.Marks)
+	e1 := unit3(cross3(chord, [3]float64{-c[0], -c[1], 0}))
+	if norm3(e1) == 0 {
+		return nil
+	}
+	e2 := unit3(cross3(chord, e1))
+	img := func(d [3]float64) ([2]float64, bool) {
+		const h = 1.0 // mm
+		u0, v0, ok0 := g.cam.Project(P[0], P[1], P[2])
+		u1, v1, ok1 := g.cam.Project(P[0]+h*d[0], P[1]+h*d[1], P[2]+h*d[2])
+		return [2]float64{(u1 - u0) / h, (v1 - v0) / h}, ok0 && ok1
+	}
+	j1, ok1 := img(e1)
+	j2, ok2 := img(e2)
+	if !ok1 || !ok2 {
+		return nil
+	}
+	bm := &bowModel{m: [2][2]float64{{j1[0], j2[0]}, {j1[1], j2[1]}}}
+	n1 := math.Hypot(j1[0], j1[1])
+	if !(n1 > 0.5/g.s) || !(n1 < 2/g.s) {
+		return nil
+	}
+	det := j1[0]*j2[1] - j2[0]*j1[1]
+	// Smallest singular value relative to the largest, via det / |M|^2.
+	fro := j1[0]*j1[0] + j1[1]*j1[1] + j2[0]*j2[0] + j2[1]*j2[1]
+	if math.Abs(det)/fro > BowConditionMin {
+		bm.full = true
+		bm.inv = [2][2]float64{{j2[1] / det, -j2[0] / det}, {-j1[1] / det, j1[0] / det}}
+	}
+	return bm
+}
+
+// BowConditionMin is the smallest |det M| / |M|^2 (about the ratio of
+// M's singular values, halved) at which both components of a bow are
+// solved from the image; below it only the always-visible one is.
+const BowConditionMin = 0.2
+
+// Limits of chord strain (percent) and rotation (degrees) within which a
+// member's oblique bow component is read from the image (see bowModel).
+const (
+	BowStillStrainPct   = 1.0
+	BowStillRotationDeg = 2.0
+)
+
+// bow returns the 3D bow in mm for an image offset (dx, dy) px; full
+// allows the oblique component to be used.
+func (bm *bowModel) bow(dx, dy float64, full bool) float64 {
+	if bm.full && full {
+		al := bm.inv[0][0]*dx + bm.inv[0][1]*dy
+		be := bm.inv[1][0]*dx + bm.inv[1][1]*dy
+		return math.Hypot(al, be)
+	}
+	j1 := [2]float64{bm.m[0][0], bm.m[1][0]}
+	n2 := j1[0]*j1[0] + j1[1]*j1[1]
+	return math.Abs(dx*j1[0]+dy*j1[1]) / n2
+}
+
+// trailingLine smooths x without lag on steady trends: each row's value is
+// a straight line fitted to that row and the w-1 before it, evaluated at
+// the row (NaN values skipped; NaN where the row itself is NaN).
+func trailingLine(x []float64, w int) []float64 {
+	out := make([]float64, len(x))
+	var ts, ys []float64
+	for i := range x {
+		if math.IsNaN(x[i]) {
+			out[i] = math.NaN()
+			continue
+		}
+		ts, ys = ts[:0], ys[:0]
+		for j := max(0, i-w+1); j <= i; j++ {
+			if !math.IsNaN(x[j]) {
+				ts = append(ts, float64(j))
+				ys = append(ys, x[j])
+			}
+		}
+		if len(ts) < 3 {
+			out[i] = x[i]
+			continue
+		}
+		slope, icept := lineFit(ts, ys)
+		if math.IsNaN(slope) {
+			out[i] = x[i]
+			continue
+		}
+		out[i] = icept + slope*float64(i)
+	}
+	return out
 }
