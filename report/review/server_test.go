@@ -607,3 +607,34 @@ func TestServerImageFolder(t *testing.T) {
 		t.Errorf("frame 3 grey %d, want 120 (the fourth still)", r>>8)
 	}
 }
+
+func TestServerParallelFrameRequests(t *testing.T) {
+	dir := t.TempDir()
+	clip := makeClip(t, dir)
+	_, base := startServer(t, Config{Clip: clip, CaptureFPS: clipFPS})
+	errs := make(chan error, 8)
+	for g := 0; g < 8; g++ {
+		go func(g int) {
+			for i := 0; i < 12; i++ {
+				n := (g*37 + i*11) % clipFrames
+				resp, err := http.Get(fmt.Sprintf("%sapi/frame/%d.jpg", base, n))
+				if err != nil {
+					errs <- err
+					return
+				}
+				io.Copy(io.Discard, resp.Body)
+				resp.Body.Close()
+				if resp.StatusCode != 200 {
+					errs <- fmt.Errorf("frame %d: status %d", n, resp.StatusCode)
+					return
+				}
+			}
+			errs <- nil
+		}(g)
+	}
+	for g := 0; g < 8; g++ {
+		if err := <-errs; err != nil {
+			t.Error(err)
+		}
+	}
+}
