@@ -2,6 +2,7 @@ package tracking
 
 import (
 	"fmt"
+	"image"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -23,6 +24,7 @@ type trackStats struct {
 	rms, max  float64
 	lost      int
 	firstLost int // -1 when never lost
+	lastLost  int // -1 when never lost
 	n         int
 }
 
@@ -30,6 +32,13 @@ type trackStats struct {
 // and compares every sample with the truth. check, when set, sees every
 // sample with its truth.
 func runScene(t *testing.T, sc *scene, probes []probe, n int, opt Options) []trackStats {
+	t.Helper()
+	return runSceneCheck(t, sc, probes, n, opt, math.Inf(1))
+}
+
+// runSceneCheck is runScene that also fails the test for any tracked
+// sample farther than maxErr px from the truth.
+func runSceneCheck(t *testing.T, sc *scene, probes []probe, n int, opt Options, maxErr float64) []trackStats {
 	t.Helper()
 	m := &marks.File{}
 	for _, p := range probes {
@@ -46,7 +55,7 @@ func runScene(t *testing.T, sc *scene, probes []probe, n int, opt Options) []tra
 	defer tr.Close()
 	st := make([]trackStats, len(probes))
 	for i := range st {
-		st[i].firstLost = -1
+		st[i].firstLost, st[i].lastLost = -1, -1
 	}
 	for i := 0; i < n; i++ {
 		sc.render(i, &img)
@@ -61,10 +70,14 @@ func runScene(t *testing.T, sc *scene, probes []probe, n int, opt Options) []tra
 				if st[j].firstLost < 0 {
 					st[j].firstLost = i
 				}
+				st[j].lastLost = i
 				continue
 			}
 			tx, ty := sc.bodies[p.body].at(i, p.x, p.y)
 			e := math.Hypot(s.X-tx, s.Y-ty)
+			if e > maxErr {
+				t.Errorf("frame %d: %s tracked at (%.2f, %.2f), truth (%.2f, %.2f), %.2f px off", i, p.id, s.X, s.Y, tx, ty, e)
+			}
 			st[j].rms += e * e
 			st[j].max = math.Max(st[j].max, e)
 			st[j].n++
@@ -193,5 +206,138 @@ func TestAccuracySlowMotion(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// TestNoDriftStaticScene tracks a still scene with noise and flicker over
+// 5000 frames (small frames, so it runs in seconds) and checks that no point
+// drifts: the mean position over any 250-frame block stays within 0.1 px of
+// the first block's (the project's target), and no point is lost.
+func TestNoDriftStaticScene(t *testing.T) {
+	const n, block = 5000, 250
+	rng := rand.New(rand.NewPCG(31, 32))
+	plate := body{shapes: speckle(rng, 0, 0, 160, 120, 700, 1, 2.2, 40)}
+	bar := body{shapes: []shape{{x: 80, y: 60, len: 70, wid: 5, ang: 0.3, sigma: 0.7, amp: 70}}}
+	var probes []probe
+	for k, d := range []float64{-40, 0, 40} {
+		x, y := 80+d*math.Cos(0.3)+0.3, 60+d*math.Sin(0.3)+0.6
+		bar.shapes = append(bar.shapes, shape{x: x, y: y, sigma: 2, amp: -70})
+		probes = append(probes, probe{id: fmt.Sprintf("dot%d", k), body: 1, x: x, y: y})
+	}
+	probes = append(probes, probe{id: "speckle0", body: 0, x: 30.4, y: 95.2}, probe{id: "speckle1", body: 0, x: 135.7, y: 20.9})
+	sc := &scene{w: 160, h: 120, bg: 90, bodies: []body{plate, bar}, noise: 2, flicker: 0.05, seed: 33}
+	m := &marks.File{}
+	for _, p := range probes {
+		m.Points = append(m.Points, marks.Point{ID: p.id, PX: [2]float64{p.x, p.y}})
+	}
+	img := gocv.NewMat()
+	defer img.Close()
+	sc.render(0, &img)
+	tr, err := New(m, img, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tr.Close()
+	// The scene is still: render the noise-free frame once and add fresh
+	// noise and flicker per frame.
+	clean := append([]float64(nil), sc.buf...)
+	pix, _ := img.DataPtrUint8()
+	sums := make([][2]float64, len(probes))
+	var first [][2]float64
+	for i := 0; i < n; i++ {
+		frng := rand.New(rand.NewPCG(34, uint64(i)))
+		gain := 1 + sc.flicker*(2*frng.Float64()-1)
+		for k, v := range clean {
+			pix[k] = uint8(math.Max(0, math.Min(255, math.Round(v*gain+sc.noise*frng.NormFloat64()))))
+		}
+		out, err := tr.Step(i, img)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for j, s := range out {
+			if s.Lost {
+				t.Fatalf("frame %d: %s lost", i, probes[j].id)
+			}
+			sums[j][0] += s.X
+			sums[j][1] += s.Y
+		}
+		if (i+1)%block == 0 {
+			means := make([][2]float64, len(probes))
+			for j := range sums {
+				means[j] = [2]float64{sums[j][0] / block, sums[j][1] / block}
+				sums[j] = [2]float64{}
+			}
+			if first == nil {
+				first = means
+				continue
+			}
+			for j := range means {
+				d := math.Hypot(means[j][0]-first[j][0], means[j][1]-first[j][1])
+				if d > 0.1 {
+					t.Errorf("%s drifted %.4f px by frame %d", probes[j].id, d, i)
+				}
+				if i == n-1 {
+					t.Logf("%s: last block %.4f px from the first; from the truth %.4f px", probes[j].id, d,
+						math.Hypot(means[j][0]-probes[j].x, means[j][1]-probes[j].y))
+				}
+			}
+		}
+	}
+}
+
+// TestBraceBreaksAndFliesOff follows dots on a brace that snaps at frame 40
+// and is flung out of the frame, turning as it goes: its points must be
+// reported lost, and no sample may sit away from the truth (never carried
+// onto another feature), while the leg beside it is tracked throughout.
+func TestBraceBreaksAndFliesOff(t *testing.T) {
+	const brk = 40
+	fly := func(i int) pose {
+		if i < brk {
+			return pose{dx: 0.01 * float64(i)}
+		}
+		k := float64(i - brk)
+		return pose{dx: 0.4 + 1.5*k*k, dy: -0.8 * k * k, rot: 0.04 * k * k}
+	}
+	sc, probes := towerScene(41, 1, slowSway(1, 0.2, 200, 0), fly)
+	sc.noise, sc.flicker = 2, 0.05
+	st := runSceneCheck(t, sc, probes, 90, DefaultOptions(), 1.0)
+	for j, p := range probes {
+		onBrace := p.body == 2
+		switch {
+		case onBrace && st[j].firstLost < 0:
+			t.Errorf("%s on the flung brace never reported lost", p.id)
+		case onBrace && st[j].firstLost < brk:
+			t.Errorf("%s lost at frame %d, before the break at %d", p.id, st[j].firstLost, brk)
+		case onBrace && st[j].firstLost > brk+12:
+			t.Errorf("%s lost only at frame %d, %d frames after the break", p.id, st[j].firstLost, st[j].firstLost-brk)
+		case !onBrace && st[j].lost > 0:
+			t.Errorf("%s on the leg lost in %d frames", p.id, st[j].lost)
+		}
+		t.Logf("%s: first lost %d, RMS while tracked %.4f px, worst %.4f px", p.id, st[j].firstLost, st[j].rms, st[j].max)
+	}
+}
+
+// TestPartialOcclusion slides a flat occluder over part of a marker's
+// window: the point must stay within 0.2 px of the truth or be reported lost,
+// and be tracked again once the occluder has passed.
+func TestPartialOcclusion(t *testing.T) {
+	sc, probes := speckleScene(51, slowSway(1.5, 1, 150, 0))
+	sc.noise = 2
+	// probe s11 sits at (120.37, 120.81); the occluder's edge sweeps from
+	// the right to 4 px past its centre and back.
+	sc.occlude = func(i int) image.Rectangle {
+		if i < 30 || i > 90 {
+			return image.Rectangle{}
+		}
+		edge := 140 - int(24*math.Sin(math.Pi*float64(i-30)/60))
+		return image.Rect(edge, 90, 240, 150)
+	}
+	sc.occludeV = 200
+	st := runSceneCheck(t, sc, probes, 130, DefaultOptions(), 0.2)
+	for j, p := range probes {
+		t.Logf("%s: lost %d frames, RMS while tracked %.4f px, worst %.4f px", p.id, st[j].lost, st[j].rms, st[j].max)
+		if st[j].lastLost > 100 {
+			t.Errorf("%s still lost at frame %d, after the occluder left", p.id, st[j].lastLost)
+		}
 	}
 }
