@@ -6,6 +6,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"strings"
 	"sync"
 
 	"gocv.io/x/gocv"
@@ -117,7 +118,7 @@ func openVideo(path string, opt Options) (Source, error) {
 		s.held.Close()
 		return nil, &ClipError{Path: path, Err: err}
 	}
-	s.info.Codec = s.vc.CodecString()
+	s.info.Codec = codecName(s.vc)
 	s.info.ContainerFPS = s.vc.Get(gocv.VideoCaptureFPS)
 	if math.IsNaN(s.info.ContainerFPS) || math.IsInf(s.info.ContainerFPS, 0) || s.info.ContainerFPS < 0 {
 		s.info.ContainerFPS = 0
@@ -469,4 +470,16 @@ func (s *videoSource) Close() error {
 		return err
 	}
 	return nil
+}
+
+// codecName is the clip's four-character codec code, or the raw tag in hex
+// when the container gives a number rather than letters (MPEG-TS stream types).
+func codecName(vc *gocv.VideoCapture) string {
+	name := vc.CodecString()
+	for _, r := range name {
+		if r < ' ' || r > '~' {
+			return fmt.Sprintf("unknown (tag 0x%x)", uint32(vc.Get(gocv.VideoCaptureFOURCC)))
+		}
+	}
+	return strings.TrimSpace(name)
 }

@@ -237,6 +237,9 @@ func writeFileAtomic(path string, data []byte) error {
 	if werr == nil {
 		werr = tmp.Chmod(0o644)
 	}
+	if werr == nil {
+		werr = tmp.Sync()
+	}
 	cerr := tmp.Close()
 	if werr == nil {
 		werr = cerr
