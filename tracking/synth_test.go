@@ -1,12 +1,15 @@
 package tracking
 
 import (
+	"image"
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"gocv.io/x/gocv"
 
 	"github.com/failframe/failframe/capture/synth"
+	"github.com/failframe/failframe/tracking/marks"
 	"github.com/failframe/failframe/tracking/tracks"
 )
 
@@ -120,5 +123,105 @@ func TestSynthTower(t *testing.T) {
 	}
 	if !sawFailing {
 		t.Errorf("no marks on the failing member %s", truth.FirstMember)
+	}
+}
+
+// TestNoDriftSynthCrop tracks the marks inside a 160x120 crop of the
+// synthesizer's first frame (rendered clean) over 5000 frames with fresh
+// sensor noise (2 grey levels) and 3 % flicker each frame: the mean position
+// over any 250-frame block must stay within 0.1 px of the first block's
+// (the project's target) and within 0.1 px of the truth.
+func TestNoDriftSynthCrop(t *testing.T) {
+	const n, block, w, h = 5000, 250, 160, 120
+	s := synth.Default()
+	s.Noise, s.Flicker = 0, 0
+	r, err := synth.NewRenderer(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	full := gocv.NewMat()
+	defer full.Close()
+	if err := r.Frame(0, &full); err != nil {
+		t.Fatal(err)
+	}
+	all := r.Marks()
+	r.Close()
+	// Crop around the first leg joint above the base.
+	c, ok := all.Point("A1")
+	if !ok {
+		t.Fatal("no mark A1")
+	}
+	x0, y0 := int(c.PX[0])-w/2, int(c.PX[1])-h/2
+	x0, y0 = max(0, min(x0, full.Cols()-w)), max(0, min(y0, full.Rows()-h))
+	region := full.Region(image.Rect(x0, y0, x0+w, y0+h))
+	gray := gocv.NewMat()
+	defer gray.Close()
+	gocv.CvtColor(region, &gray, gocv.ColorBGRToGray)
+	region.Close()
+	m := &marks.File{}
+	for _, p := range all.Points {
+		x, y := p.PX[0]-float64(x0), p.PX[1]-float64(y0)
+		if x > 14 && y > 14 && x < w-15 && y < h-15 {
+			m.Points = append(m.Points, marks.Point{ID: p.ID, PX: [2]float64{x, y}})
+		}
+	}
+	if len(m.Points) == 0 {
+		t.Fatal("no marks inside the crop")
+	}
+	clean, _ := gray.DataPtrUint8()
+	clean = append([]uint8(nil), clean...)
+	img := gocv.NewMatWithSize(h, w, gocv.MatTypeCV8UC1)
+	defer img.Close()
+	pix, _ := img.DataPtrUint8()
+	copy(pix, clean)
+	tr, err := New(m, img, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tr.Close()
+	sums := make([][2]float64, len(m.Points))
+	var first [][2]float64
+	for i := 0; i < n; i++ {
+		rng := rand.New(rand.NewPCG(77, uint64(i)))
+		gain := 1 + 0.03*(2*rng.Float64()-1)
+		for k, v := range clean {
+			pix[k] = uint8(math.Max(0, math.Min(255, math.Round(float64(v)*gain+2*rng.NormFloat64()))))
+		}
+		out, err := tr.Step(i, img)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for j, s := range out {
+			if s.Lost {
+				t.Fatalf("frame %d: %s lost", i, m.Points[j].ID)
+			}
+			sums[j][0] += s.X
+			sums[j][1] += s.Y
+		}
+		if (i+1)%block != 0 {
+			continue
+		}
+		means := make([][2]float64, len(sums))
+		for j := range sums {
+			means[j] = [2]float64{sums[j][0] / block, sums[j][1] / block}
+			sums[j] = [2]float64{}
+			p := m.Points[j].PX
+			if e := math.Hypot(means[j][0]-p[0], means[j][1]-p[1]); e > 0.1 {
+				t.Errorf("%s: block ending at frame %d is %.4f px from the truth", m.Points[j].ID, i, e)
+			}
+		}
+		if first == nil {
+			first = means
+			continue
+		}
+		for j := range means {
+			d := math.Hypot(means[j][0]-first[j][0], means[j][1]-first[j][1])
+			if d > 0.1 {
+				t.Errorf("%s drifted %.4f px by frame %d", m.Points[j].ID, d, i)
+			}
+			if i == n-1 {
+				t.Logf("%s: last block %.4f px from the first", m.Points[j].ID, d)
+			}
+		}
 	}
 }
