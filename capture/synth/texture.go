@@ -119,7 +119,7 @@ var (
 
 // renderBackground fills bg (BGR, float, W*H*3) with the static scene: a
 // fabric-covered wall behind the tower and a wooden table with the tower's
-// base board, each pixel averaged over 2x2 rays.
+// base board.
 func (m *model) renderBackground(bg []float32) {
 	s := m.s
 	W, H := s.Width, s.Height
@@ -128,42 +128,68 @@ func (m *model) renderBackground(bg []float32) {
 	wallP := m.camDir.scale(-wallDist)
 	right := m.cam.rows[0]
 	half := s.BaseMM/2 + 22
-	sample := func(x, y float64) [3]float32 {
+	// kind says what the ray through (x, y) meets: 0 wall, 1 table, 2 base board
+	kind := func(x, y float64) (int, vec3) {
 		d := m.cam.ray(x, y)
 		o := m.cam.pos
-		// table: z = 0, in front of the wall
 		if d.z < 0 {
-			lam := -o.z / d.z
-			p := o.add(d.scale(lam))
+			p := o.add(d.scale(-o.z / d.z))
 			if p.sub(wallP).dot(m.camDir) > 0 {
 				if math.Abs(p.x) < half && math.Abs(p.y) < half {
-					g := 1 + 0.06*fbm(seed+5, p.x/6, p.y/40, 3) + 0.05*math.Sin(p.x*0.9+3*fbm(seed+6, p.x/20, p.y/20, 2))
-					return [3]float32{float32(150 * g), float32(176 * g), float32(196 * g)}
+					return 2, p
 				}
-				g := 1 + 0.10*fbm(seed+1, p.x/80, p.y/9, 3) + 0.06*math.Sin(p.y*0.7+4*fbm(seed+2, p.x/50, p.y/30, 2))
-				return [3]float32{float32(62 * g), float32(86 * g), float32(116 * g)}
+				return 1, p
 			}
 		}
-		// wall: the plane through wallP facing the camera
 		lam := wallP.sub(o).dot(m.camDir) / d.dot(m.camDir)
-		p := o.add(d.scale(lam))
+		return 0, o.add(d.scale(lam))
+	}
+	shade := func(k int, p vec3) [3]float32 {
+		switch k {
+		case 2:
+			g := 1 + 0.06*fbm(seed+5, p.x/6, p.y/40, 3) + 0.05*math.Sin(p.x*0.9+3*fbm(seed+6, p.x/20, p.y/20, 2))
+			return [3]float32{float32(150 * g), float32(176 * g), float32(196 * g)}
+		case 1:
+			g := 1 + 0.10*fbm(seed+1, p.x/80, p.y/9, 3) + 0.06*math.Sin(p.y*0.7+4*fbm(seed+2, p.x/50, p.y/30, 2))
+			return [3]float32{float32(62 * g), float32(86 * g), float32(116 * g)}
+		}
 		u, v := p.dot(right), p.z
-		g := 1 + 0.07*fbm(seed+3, u/45, v/45, 3) + 0.05*fbm(seed+4, u/3, v/3, 2) +
-			0.025*math.Sin(u*2*math.Pi/1.6)*math.Sin(v*2*math.Pi/1.6)
-		light := 1 + 0.12*(v-150)/300 - 0.05*u/300
-		g *= light
+		g := 1 + 0.07*fbm(seed+3, u/45, v/45, 3) + 0.05*fbm(seed+4, u/4, v/4, 2) +
+			0.02*math.Sin(u*2*math.Pi/5)*math.Sin(v*2*math.Pi/5)
+		g *= 1 + 0.12*(v-150)/300 - 0.05*u/300
 		return [3]float32{float32(126 * g), float32(116 * g), float32(104 * g)}
+	}
+	// one ray per pixel, four where the surface changes (edges of the table
+	// and the base board), so edges are smooth
+	kinds := make([]int8, W*H)
+	for y := 0; y < H; y++ {
+		for x := 0; x < W; x++ {
+			k, _ := kind(float64(x), float64(y))
+			kinds[y*W+x] = int8(k)
+		}
 	}
 	cx, cy := float64(W-1)/2, float64(H-1)/2
 	r2max := cx*cx + cy*cy
 	for y := 0; y < H; y++ {
 		for x := 0; x < W; x++ {
-			var acc [3]float32
-			for _, o := range [4][2]float64{{-0.25, -0.25}, {0.25, -0.25}, {-0.25, 0.25}, {0.25, 0.25}} {
-				c := sample(float64(x)+o[0], float64(y)+o[1])
-				for k := range acc {
-					acc[k] += c[k] / 4
+			k0 := kinds[y*W+x]
+			edge := false
+			for _, o := range [4][2]int{{-1, 0}, {1, 0}, {0, -1}, {0, 1}} {
+				xx, yy := x+o[0], y+o[1]
+				if xx >= 0 && yy >= 0 && xx < W && yy < H && kinds[yy*W+xx] != k0 {
+					edge = true
 				}
+			}
+			var acc [3]float32
+			if edge {
+				for _, o := range [4][2]float64{{-0.25, -0.25}, {0.25, -0.25}, {-0.25, 0.25}, {0.25, 0.25}} {
+					c := shade(kind(float64(x)+o[0], float64(y)+o[1]))
+					for k := range acc {
+						acc[k] += c[k] / 4
+					}
+				}
+			} else {
+				acc = shade(kind(float64(x), float64(y)))
 			}
 			dx, dy := float64(x)-cx, float64(y)-cy
 			vig := float32(1 - 0.18*(dx*dx+dy*dy)/r2max)
