@@ -329,6 +329,7 @@ func TestWriteReadsBack(t *testing.T) {
 		if err != nil {
 			t.Fatalf("%s: %v", name, err)
 		}
+		// Outside check: OpenCV's FFmpeg reader (Debian libopencv 4.6) reads the rate and frames.
 		if fps := vc.Get(gocv.VideoCaptureFPS); math.Abs(fps-s.ContainerFPS) > 1e-6 {
 			t.Errorf("%s: container rate %g fps, want %g", name, fps, s.ContainerFPS)
 		}
@@ -347,6 +348,7 @@ func TestWriteReadsBack(t *testing.T) {
 				gocv.AbsDiff(img, want, &diff)
 				mean := diff.Mean()
 				diff.Close()
+				// common practice: high-quality JPEG / CRF 12 H.264 stays within a few grey levels
 				if m := (mean.Val1 + mean.Val2 + mean.Val3) / 3; m > 4 {
 					t.Errorf("%s frame %d: mean difference from the rendered frame %.2f grey levels", name, n, m)
 				}
@@ -446,6 +448,7 @@ func TestLoadLog(t *testing.T) {
 	}
 	tr := r.Truth()
 	rate := float64(len(ts)-1) / (ts[len(ts)-1] - ts[0])
+	// contract (issue 2): about 80 samples per second
 	if rate < 75 || rate > 85 {
 		t.Errorf("sample rate %.2f per s, want about 80", rate)
 	}
@@ -459,9 +462,11 @@ func TestLoadLog(t *testing.T) {
 		}
 	}
 	collapseLog := float64(s.CollapseFrame)/s.CaptureFPS - tr.LoadOffsetS
+	// contract (issue 2): the peak at the collapse, then a drop within a few samples
 	if d := math.Abs(ts[imax] - collapseLog); d > 0.03 {
 		t.Errorf("peak at log time %.3f s, collapse at %.3f s", ts[imax], collapseLog)
 	}
+	// a few grams of noise (sigma 2.5 g): the largest sample stays within 12 g of the peak
 	if math.Abs(gs[imax]-tr.PeakLoadG) > 12 {
 		t.Errorf("logged peak %.1f g, truth %.1f g", gs[imax], tr.PeakLoadG)
 	}
