@@ -46,6 +46,8 @@ type probeReport struct {
 	EndsEarlyAt     *int     `json:"ends_early_at"`
 	Problems        []string `json:"problems"`
 	Warnings        []string `json:"warnings"`
+
+	containerFrames int // the count the container states
 }
 
 func newProbeCmd(io *IOStreams) *cobra.Command {
@@ -126,6 +128,8 @@ func probeRun(opts *probeOptions) error {
 		ContainerFPS: info.ContainerFPS,
 		Frames:       info.FrameCount,
 		CountSource:  info.CountSource,
+
+		containerFrames: info.FrameCount,
 		BadFrames:    []int{},
 		Problems:     []string{},
 		Warnings:     append([]string{}, info.Warnings...),
@@ -150,9 +154,8 @@ func probeRun(opts *probeOptions) error {
 		if res.Short != nil {
 			f := res.Short.Frame
 			rep.EndsEarlyAt = &f
-			rep.Problems = append(rep.Problems, res.Short.Error())
 		}
-		if res.Frames != info.FrameCount && info.CountSource == "container" {
+		if res.Frames != info.FrameCount && info.CountSource == "container" && res.Short == nil {
 			rep.Warnings = append(rep.Warnings, fmt.Sprintf("the container lists %d frames; decoding found %d", info.FrameCount, res.Frames))
 		}
 		rep.Frames = res.Frames
@@ -183,16 +186,22 @@ func probeRun(opts *probeOptions) error {
 	} else {
 		writeProbe(opts.io.Out, &rep)
 	}
-	if n := len(rep.BadFrames); n > 0 || rep.EndsEarlyAt != nil {
-		msg := fmt.Sprintf("%d %s missing or undecodable (%s)", n, plural(n, "frame", "frames"), frameRanges(rep.BadFrames, 10))
-		if n == 0 {
-			msg = rep.Problems[len(rep.Problems)-1]
-		} else if rep.EndsEarlyAt != nil {
-			msg += fmt.Sprintf(", and the clip ends early at frame %d", *rep.EndsEarlyAt)
-		}
-		return &InputError{Err: fmt.Errorf("clip %s: %s", opts.clip, msg)}
+	var parts []string
+	if n := len(rep.BadFrames); n > 0 {
+		parts = append(parts, fmt.Sprintf("%d %s missing or undecodable (%s)", n, plural(n, "frame", "frames"), frameRanges(rep.BadFrames, 10)))
+	}
+	if rep.EndsEarlyAt != nil {
+		parts = append(parts, endsEarly(&rep))
+	}
+	if len(parts) > 0 {
+		return &InputError{Err: fmt.Errorf("clip %s: %s", opts.clip, strings.Join(parts, "; "))}
 	}
 	return nil
+}
+
+// endsEarly says where a short clip ends.
+func endsEarly(r *probeReport) string {
+	return fmt.Sprintf("the stream ends at frame %d but the container lists %d frames (truncated or damaged)", *r.EndsEarlyAt, r.containerFrames)
 }
 
 // writeProbe prints the report for people.
@@ -224,7 +233,7 @@ func writeProbe(w io.Writer, r *probeReport) {
 	switch {
 	case !r.Scanned:
 		line("bad frames", "not checked (--count decodes every frame)")
-	case len(r.BadFrames) == 0 && r.EndsEarlyAt == nil:
+	case len(r.BadFrames) == 0:
 		line("bad frames", "none (%d of %d frames decoded)", r.Decoded, r.Frames)
 	default:
 		line("bad frames", "%d (%s); %d of %d frames decoded", len(r.BadFrames), frameRanges(r.BadFrames, 20), r.Decoded, r.Frames)
@@ -235,6 +244,9 @@ func writeProbe(w io.Writer, r *probeReport) {
 			}
 			fmt.Fprintf(w, "  %s\n", p)
 		}
+	}
+	if r.EndsEarlyAt != nil {
+		line("ends early", "%s", endsEarly(r))
 	}
 }
 

@@ -108,7 +108,28 @@ func TestProbeBadInputs(t *testing.T) {
 	os.WriteFile(notVideo, []byte("time_ms,load_g\n0,0\n"), 0o644)
 	sound := filepath.Join(dir, "sound.mp4")
 	capRun(t, "ffmpeg", "-v", "error", "-f", "lavfi", "-i", "sine=duration=0.3", sound)
-	half := capCut(t, capClip(t, 60))
+	whole := capClip(t, 60)
+	half := capCut(t, whole)
+	// With the index at the front, the cut file opens and runs out part way.
+	fast := filepath.Join(dir, "fast.mp4")
+	capRun(t, "ffmpeg", "-v", "error", "-i", whole, "-c", "copy", "-movflags", "+faststart", fast)
+	fastHalf := capCut(t, fast)
+	// 2000 bytes overwritten a third of the way in.
+	b, _ := os.ReadFile(whole)
+	copy(b[len(b)/3:], strings.Repeat("\xff", 2000))
+	overwritten := filepath.Join(dir, "overwritten.mp4")
+	os.WriteFile(overwritten, b, 0o644)
+	// Outside check: the frames ffmpeg cannot decode in it either.
+	var lostMP4 []int
+	mp4Sums := capFFmpegMD5(t, overwritten)
+	for f := 0; f < 60; f++ {
+		if _, ok := mp4Sums[f]; !ok {
+			lostMP4 = append(lostMP4, f)
+		}
+	}
+	if len(lostMP4) == 0 {
+		t.Fatal("ffmpeg decodes every frame of the overwritten clip: the damage missed")
+	}
 	damaged := capDamagedAVI(t)
 	// Outside check: the frame ffmpeg cannot decode either.
 	sums := capFFmpegMD5(t, damaged)
@@ -147,6 +168,10 @@ func TestProbeBadInputs(t *testing.T) {
 		{"not a video", []string{"probe", notVideo}, ExitBadInput, []string{notVideo, "not a readable video"}},
 		{"no video frames", []string{"probe", sound}, ExitBadInput, []string{sound}},
 		{"mp4 cut in half", []string{"probe", half}, ExitBadInput, []string{half, "not a readable video"}},
+		{"mp4 cut in half, index in front", []string{"probe", fastHalf, "--count"}, ExitBadInput,
+			[]string{fastHalf, "the stream ends at frame", "the container lists 60 frames"}},
+		{"mp4 with bytes overwritten", []string{"probe", overwritten, "--count"}, ExitBadInput,
+			[]string{overwritten, strconv.Itoa(len(lostMP4)) + " " + plural(len(lostMP4), "frame", "frames") + " missing or undecodable (" + frameRanges(lostMP4, 10) + ")"}},
 		{"frame overwritten", []string{"probe", damaged, "--count"}, ExitBadInput, []string{damaged, "1 frame missing or undecodable (" + strconv.Itoa(lost) + ")"}},
 		{"capture rate 0", []string{"probe", damaged, "--capture-fps", "0"}, ExitUsage, []string{"capture rate 0 fps is not usable"}},
 		{"capture rate negative", []string{"probe", damaged, "--capture-fps=-5"}, ExitUsage, []string{"capture rate -5 fps is not usable"}},
