@@ -130,9 +130,9 @@ func probeRun(opts *probeOptions) error {
 		CountSource:  info.CountSource,
 
 		containerFrames: info.FrameCount,
-		BadFrames:    []int{},
-		Problems:     []string{},
-		Warnings:     append([]string{}, info.Warnings...),
+		BadFrames:       []int{},
+		Problems:        []string{},
+		Warnings:        append([]string{}, info.Warnings...),
 	}
 	if info.ContainerFPS > 0 {
 		d := float64(info.FrameCount) / info.ContainerFPS
