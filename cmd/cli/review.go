@@ -57,7 +57,8 @@ Without --marks the marks file is the clip's name with .marks.yaml; it need
 not exist yet. With --report, the events, tracks and load of that analysis
 are shown and "Save still" writes PNGs into its evidence folder.
 
-Stop the server with Ctrl-C.` + exitHelp,
+Stop the server with Ctrl-C.
+` + exitHelp,
 		Example: `  failframe review tower.avi --marks marks.yaml
   failframe review tower.avi --marks marks.yaml --report report --open`,
 		Args: exactArgs(1),

@@ -113,6 +113,9 @@ async function start() {
   if (!I.has_tracks) {
     $("ovPoints").disabled = true;
     $("ovMembers").disabled = true;
+  } else {
+    // The tracked points already sit on the marks in the reference frame.
+    $("ovMarks").checked = false;
   }
   renderEvents();
   renderMarks();
@@ -423,7 +426,7 @@ function renderEvents() {
     const load = ev.load_g != null ? " · " + ev.load_g.toFixed(0) + " g" : "";
     li.innerHTML = `<span class="kind ${esc(ev.kind)}">${esc(ev.kind.replace(/_/g, " "))}</span>` +
       `<span>${esc(ev.member || "whole tower")}</span>` +
-      `<span class="when">${ev.frame} · ${fmtTime(ev.time_s)}${load}</span>` +
+      `<span class="when">frame ${ev.frame} · ${fmtTime(ev.time_s)}${load}</span>` +
       (ev.detail ? `<span class="detail">${esc(ev.detail)}</span>` : "");
     li.title = "go to frame " + ev.frame;
     li.addEventListener("click", () => { stopPlay(); show(ev.frame); });
