@@ -184,6 +184,9 @@ func (s *videoSource) count(progress func(done, total int)) error {
 		if errors.Is(err, io.EOF) {
 			break
 		}
+		if errors.Is(err, ErrShortClip) {
+			continue // the end report names a frame that is not there
+		}
 		n = f + 1
 		if progress != nil && n%25 == 0 {
 			progress(n, total)
@@ -280,7 +283,8 @@ func (s *videoSource) Read(dst *gocv.Mat) (int, error) {
 	for {
 		if !s.vc.Read(dst) || dst.Empty() {
 			failed++
-			if failed < readRetries {
+			atEnd := s.info.FrameCount > 0 && s.next >= s.info.FrameCount
+			if failed < readRetries && !atEnd {
 				continue // a damaged packet; the decoder goes on with the next
 			}
 			s.ended = true
@@ -299,7 +303,6 @@ func (s *videoSource) Read(dst *gocv.Mat) (int, error) {
 			// Not a frame of this clip's size: treat it as undecodable; it
 			// shows as a gap before the next good frame.
 			failed++
-			s.unsure = s.unsure || !s.ptsOK
 			continue
 		}
 		var known bool
