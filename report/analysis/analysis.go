@@ -92,6 +92,9 @@ func (e *InputError) Error() string { return e.Err.Error() }
 // Unwrap returns the underlying problem.
 func (e *InputError) Unwrap() error { return e.Err }
 
+// maxLogWarnings is how many of the load log's problems are listed one by one.
+const maxLogWarnings = 10
+
 // ErrOutExists means the report folder exists and Force was not given.
 var ErrOutExists = errors.New("report folder exists (use --force to replace it)")
 
@@ -154,11 +157,18 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 			prog.Note(fmt.Sprintf("load log %s: %s", cfg.Load, l.Detected))
 		}
 		logFacts = &report.LoadLogFacts{Path: cfg.Load, Detected: l.Detected, Samples: l.Len(), PeriodS: l.PeriodS, SkippedLines: []int{}}
+		shown := 0
 		for _, w := range warns {
 			if w.Line > 0 {
 				logFacts.SkippedLines = append(logFacts.SkippedLines, w.Line)
 			}
-			warn("load log %s: %s", cfg.Load, w)
+			if shown < maxLogWarnings {
+				warn("load log %s: %s", cfg.Load, w)
+				shown++
+			}
+		}
+		if len(warns) > shown {
+			warn("load log %s: %d more problems not listed (see load_log.skipped_lines in %s)", cfg.Load, len(warns)-shown, report.ResultFile)
 		}
 	}
 
