@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 )
 
 const legLetters = "ABCD"
@@ -73,7 +74,10 @@ type model struct {
 	front    [4]bool
 
 	// failure
-	fail         int // member index, -1 for a twist failure
+	fail         int // member index, -1 for a twist or joint failure
+	joint        int // node index of a joint that lets go, else -1
+	jointFirst   int // the member reported first for a joint failure
+	detach       map[int]detachment
 	mode         string
 	span0, span1 float64
 	sBreak       float64
@@ -365,7 +369,7 @@ func (m *model) blockSticker(i int) vec3 {
 func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 	s := m.s
 	n := m.n
-	m.fail = -1
+	m.fail, m.joint, m.jointFirst = -1, -1, -1
 	id := s.Fail
 	if id == "" {
 		if s.Bracing == BracingHorizontal {
@@ -408,11 +412,21 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 	m.cordPhase = rng.Float64() * 2 * math.Pi
 	lean := rotZ(m.camDir, (rng.Float64()*2-1)*math.Pi)
 
-	if m.fail < 0 {
+	if strings.HasPrefix(id, JointPrefix) {
+		for i, nd := range m.nodes {
+			if !nd.crossing && nd.id == strings.TrimPrefix(id, JointPrefix) {
+				m.joint = i
+			}
+		}
+	}
+	switch {
+	case m.joint >= 0:
+		m.setupJoint(rng)
+	case m.fail < 0:
 		m.mode = ModeTowerTwist
 		m.zLo, m.zHi = 0, s.HeightMM
 		m.leanMax, m.dropMax, m.twistC = 10*math.Pi/180, 0.25*s.HeightMM, 30*math.Pi/180
-	} else {
+	default:
 		mb := m.members[m.fail]
 		m.span0, m.span1 = 0, 1
 		m.sBreak = 0.42 // beside the mid-span sticker, so the gap shows
@@ -483,8 +497,34 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 		m.kick0 = m.bowDir.scale(1.5 * m.bBreak).sub(axis.scale(1.5)).add(side.scale(1.2))
 		m.kick1 = m.bowDir.scale(1.0 * m.bBreak).add(axis.scale(1.5)).sub(side.scale(1.0))
 	}
+	if m.joint >= 0 {
+		return // setupJoint chose the lean
+	}
 	m.leanAxis = vec3{0, 0, 1}.cross(vec3{lean.x, lean.y, 0}.unit())
 }
+
+// detachment is how one member end comes off a failing joint.
+type detachment struct {
+	end  int  // 0 = the member's first end, 1 = its last
+	kick vec3 // where that end goes (mm, rest frame) once the joint has let go
+}
+
+// jointSlip returns how far along its kick a failing joint has moved at time
+// t: creeping a tenth of the way from the onset, then popping at the break.
+func (m *model) jointSlip(t float64) float64 {
+	on, tb := float64(m.s.OnsetFrame), m.tBreak()
+	switch {
+	case t <= on:
+		return 0
+	case t <= tb:
+		r := (t - on) / (tb - on)
+		return 0.1 * r * r
+	}
+	return 0.1 + 0.9*(1-math.Exp(-(t-tb)/1.5))
+}
+
+// JointPrefix in Scenario.Fail names a joint that lets go, as in "joint-B2".
+const JointPrefix = "joint-"
 
 // bow returns the failing member's bow amplitude (mm) at time t (frames)
 // before the break.
@@ -526,7 +566,7 @@ func (m *model) tBreak() float64 { return float64(m.s.BreakFrame) - 0.5 }
 func (m *model) tCollapse() float64 { return float64(m.s.CollapseFrame) - 0.5 }
 
 func (m *model) broken(t float64) bool {
-	return m.fail >= 0 && t > m.tBreak()
+	return (m.fail >= 0 || m.joint >= 0) && t > m.tBreak()
 }
 
 // level motion before collapse: twist (rad), sway (plan vector) and
@@ -537,13 +577,13 @@ func (m *model) levelMotion(z, t float64) (float64, vec3, float64) {
 	// twist and sway reach their set values when the first member breaks
 	// (for a twist failure: at the collapse); settlement at the collapse
 	end := c
-	if m.fail >= 0 {
+	if m.fail >= 0 || m.joint >= 0 {
 		end = m.tBreak()
 	}
 	tt := math.Max(0, math.Min(t, end))
 	h := z / s.HeightMM
 	var g float64
-	if m.fail < 0 {
+	if m.fail < 0 && m.joint < 0 {
 		on := float64(s.OnsetFrame)
 		if tt < on {
 			g = 0.15 * tt / on
@@ -615,6 +655,9 @@ func (m *model) pose(t float64) *pose {
 			continue
 		}
 		p := nd.rest
+		if i == m.joint && nd.level == 0 {
+			p = p.add(m.detach[-1].kick.scale(m.jointSlip(t)))
+		}
 		if nd.leg == failLeg {
 			sl := float64(nd.level) / float64(m.n)
 			half := 0
@@ -656,7 +699,72 @@ func (m *model) memberPos(mi int, s float64, half int, ps *pose) vec3 {
 		ob := m.off(a1.s, half, ps.t)
 		p = p.add(o.sub(lerp3(oa, ob, u)))
 	}
+	if d, ok := m.detach[mi]; ok {
+		// the end on the failing joint comes off; the piece up to the next
+		// anchor follows it, fading to nothing there
+		var f float64
+		switch {
+		case d.end == 0 && k == 0:
+			f = 1 - u
+		case d.end == 1 && k == len(mb.anchors)-2:
+			f = u
+		}
+		if f > 0 {
+			p = p.add(d.kick.scale(f * m.jointSlip(ps.t)))
+		}
+	}
 	return p
+}
+
+// setupJoint prepares a joint failure: at a leg's foot the leg slides off
+// the base; higher up the braces ending at the joint come unglued.
+func (m *model) setupJoint(rng *rand.Rand) {
+	nd := m.nodes[m.joint]
+	m.mode = ModeJointOrBase
+	out := vec3{nd.rest.x, nd.rest.y, 0}.unit()
+	m.detach = map[int]detachment{}
+	m.leanMax, m.twistC = 24*math.Pi/180, 8*math.Pi/180
+	if nd.level == 0 {
+		m.jointFirst = nd.leg
+		m.detach[-1] = detachment{kick: out.scale(3.5).add(vec3{0, 0, 1.5})}
+		m.zLo, m.zHi = 0, m.levelsZ[1]
+	} else {
+		for mi, mb := range m.members {
+			if mb.kind == "leg" {
+				continue
+			}
+			end := -1
+			if mb.anchors[0].node == m.joint {
+				end = 0
+			} else if mb.anchors[len(mb.anchors)-1].node == m.joint {
+				end = 1
+			}
+			if end < 0 {
+				continue
+			}
+			if m.jointFirst < 0 || (mb.front && !m.members[m.jointFirst].front) {
+				m.jointFirst = mi
+			}
+			otherEnd := mb.anchors[len(mb.anchors)-1].node
+			if end == 1 {
+				otherEnd = mb.anchors[0].node
+			}
+			away := m.nodes[otherEnd].rest.sub(nd.rest).unit()
+			nf := m.faceNorm[mb.face]
+			side := nf.cross(away).unit()
+			k := away.scale(1.2 + rng.Float64()).add(nf.scale(2 + 1.5*rng.Float64())).add(side.scale(rng.Float64()*2 - 1))
+			m.detach[mi] = detachment{end: end, kick: k}
+		}
+		if m.jointFirst < 0 {
+			m.jointFirst = nd.leg // no brace ends here: report the leg
+		}
+		m.zLo, m.zHi = m.levelsZ[nd.level-1], m.levelsZ[nd.level]
+	}
+	m.dropMax = 0.5 * (m.zHi - m.zLo)
+	m.shearDir = out
+	m.shearMM = math.Min(3, 0.025*(m.zHi-m.zLo))
+	m.shearTwist = 0.25 * m.twistTop
+	m.leanAxis = vec3{0, 0, 1}.cross(out)
 }
 
 // pointPos returns the position of point i.

@@ -118,7 +118,7 @@ type Scenario struct {
 	Frames int
 	// OnsetFrame is the first frame where the failing member's bow exceeds
 	// 0.5 % of its length (for Fail = "twist": where the twist starts to run
-	// away). Default 250.
+	// away; for a joint failure: where the joint starts to creep). Default 250.
 	OnsetFrame int
 	// BreakFrame is the first frame showing the failing member broken (its
 	// halves spring apart within a few frames). Ignored for Fail = "twist".
@@ -128,9 +128,11 @@ type Scenario struct {
 	// takes about 0.05 s of capture (at least 8 frames). Default 392.
 	CollapseFrame int
 	// Fail is the member that buckles first (a member id such as "AB-d1" or
-	// "leg-B"), "twist" for a tower that twists as a whole, or "" for the
-	// pattern's default: a long diagonal on the face nearest the camera, or
-	// for horizontal-only bracing the leg nearest the camera over its full height.
+	// "leg-B"), "twist" for a tower that twists as a whole, "joint-<leg><level>"
+	// for a glued joint that lets go (e.g. "joint-B2": its braces come off;
+	// "joint-A0": leg A's foot slides off the base), or "" for the pattern's
+	// default: a long diagonal on the face nearest the camera, or for
+	// horizontal-only bracing the leg nearest the camera over its full height.
 	Fail string
 	// TwistDeg is the top level's twist when the first member breaks (for
 	// Fail = "twist": at the collapse), degrees counter-clockwise from above;
@@ -289,6 +291,19 @@ func (s Scenario) validateFields() error {
 		return fmt.Errorf("cord thickness %g mm: must be 0 to 20", s.CordMM)
 	case s.ShakePX < 0 || s.ShakePX > 50:
 		return fmt.Errorf("camera shake %g px: must be 0 to 50", s.ShakePX)
+	}
+	if strings.HasPrefix(s.Fail, JointPrefix) {
+		j := strings.TrimPrefix(s.Fail, JointPrefix)
+		ok := len(j) >= 2 && strings.ContainsRune(legLetters, rune(j[0]))
+		if ok {
+			var lv int
+			_, err := fmt.Sscanf(j[1:], "%d", &lv)
+			ok = err == nil && fmt.Sprintf("%c%d", j[0], lv) == j && lv >= 0 && lv <= s.Levels
+		}
+		if !ok {
+			return fmt.Errorf("unknown joint %q for --fail (use joint-<leg><level>, e.g. joint-B2 or joint-A0, levels 0..%d)", s.Fail, s.Levels)
+		}
+		return nil
 	}
 	if s.Fail != "" && s.Fail != FailTwist {
 		ids := memberIDs(s)

@@ -817,3 +817,50 @@ func TestWriteIsReproducible(t *testing.T) {
 		}
 	}
 }
+
+// TestJointFailure checks a glued joint letting go: no member bows first,
+// the braces on the joint come off it at the break, and a foot slides off
+// the base.
+func TestJointFailure(t *testing.T) {
+	for _, tt := range []struct{ fail, first string }{{"joint-B2", "AB-h2"}, {"joint-A0", "leg-A"}} {
+		t.Run(tt.fail, func(t *testing.T) {
+			s := short()
+			s.Fail = tt.fail
+			if err := s.Validate(); err != nil {
+				t.Fatal(err)
+			}
+			m := newModel(s)
+			tr := m.computeTruth(nil)
+			if tr.FailureMode != ModeJointOrBase || tr.FirstMember != tt.first || tr.FailedJoint != strings.TrimPrefix(tt.fail, JointPrefix) {
+				t.Fatalf("mode %s first %s joint %s", tr.FailureMode, tr.FirstMember, tr.FailedJoint)
+			}
+			fm, _ := tr.Member(tr.FirstMember)
+			b := s.BreakFrame
+			// before the break the joint only creeps: no bow to speak of
+			if fm.BowMM[b-1] > 0.005*fm.LengthMM {
+				t.Errorf("bow %.3f mm before the break", fm.BowMM[b-1])
+			}
+			// a detached end moves by millimetres within a few frames of the break
+			var jump float64
+			if strings.HasSuffix(tt.fail, "0") {
+				j, _ := tr.Point("A0")
+				jump = math.Hypot(j.PX[b+4][0]-j.PX[b-1][0], j.PX[b+4][1]-j.PX[b-1][1])
+			} else {
+				mid, _ := tr.Point(tt.first + "-mid")
+				jump = math.Hypot(mid.PX[b+4][0]-mid.PX[b-1][0], mid.PX[b+4][1]-mid.PX[b-1][1])
+			}
+			if jump < 1 {
+				t.Errorf("the failing joint moved only %.2f px across the break", jump)
+			}
+		})
+	}
+	s := short()
+	s.Fail = "joint-E1"
+	if err := s.Validate(); err == nil || !strings.Contains(err.Error(), "unknown joint") {
+		t.Errorf("joint-E1: %v", err)
+	}
+	s.Fail = "joint-A9"
+	if err := s.Validate(); err == nil {
+		t.Error("joint-A9 accepted on a 4-level tower")
+	}
+}

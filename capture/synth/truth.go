@@ -47,8 +47,12 @@ type Truth struct {
 	CollapseFrame int `json:"collapse_frame"`
 	// CollapseFrames is how many frames the collapse takes.
 	CollapseFrames int `json:"collapse_frames"`
-	// FailureMode is one of tower_twist, leg_full_height, leg_between_braces, brace_buckling.
+	// FailureMode is one of tower_twist, leg_full_height, leg_between_braces,
+	// brace_buckling, joint_or_base.
 	FailureMode string `json:"failure_mode"`
+	// FailedJoint is the joint that let go, for a joint failure (the first
+	// member is then the member that came off it first).
+	FailedJoint string `json:"failed_joint,omitempty"`
 	// MassG is the tower's mass in grams.
 	MassG float64 `json:"mass_g"`
 	// LoadOffsetS is the load log's clock offset: video_time = log_time + load_offset_s.
@@ -214,9 +218,13 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 		Rvec:       m.cam.rvec(), TvecMM: m.cam.tvec(), RightVector: [3]float64{r.x, r.y, r.z},
 		DistCoeffs: [5]float64{m.cam.k1, 0, 0, 0, 0},
 	}
-	if m.fail >= 0 {
+	switch {
+	case m.fail >= 0:
 		t.FirstMember = m.members[m.fail].id
-	} else {
+	case m.joint >= 0:
+		t.FirstMember = m.members[m.jointFirst].id
+		t.FailedJoint = m.nodes[m.joint].id
+	default:
 		t.BreakFrame = -1
 	}
 	for _, p := range m.points {
@@ -301,7 +309,7 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 		t.LoadOffsetS = load.offsetS
 		t.LoadPeriodS = load.periodS
 		t.LoadAtOnsetG = round6(load.at(float64(s.OnsetFrame) / s.CaptureFPS))
-		if m.fail >= 0 {
+		if m.fail >= 0 || m.joint >= 0 {
 			t.LoadAtBreakG = round6(load.at(float64(s.BreakFrame) / s.CaptureFPS))
 		}
 	}

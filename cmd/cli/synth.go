@@ -37,7 +37,8 @@ above and levels 0 (base) to n (top). Bracing patterns: horizontal (horizontals
 at every level only), diagonal (one diagonal per panel, alternating, with a top
 ring), z (horizontals and one diagonal per panel) and x (crossed diagonals
 glued at the crossing, with a top ring). One member bows from the onset frame
-until it breaks, then the tower collapses.
+until it breaks (or a joint creeps and lets go, or the whole tower twists),
+then the tower collapses.
 
 The output folder gets:
   tower.avi    Motion JPEG clip (stored at --container-fps)
@@ -90,7 +91,7 @@ The same --seed gives the same clip, bit for bit.
 	f.IntVar(&s.OnsetFrame, "onset-frame", s.OnsetFrame, "frame where the failing member's bow passes 0.5 % of its length (twist failure: where the twist runs away)")
 	f.IntVar(&s.BreakFrame, "break-frame", s.BreakFrame, "first frame showing the failing member broken")
 	f.IntVar(&s.CollapseFrame, "collapse-frame", s.CollapseFrame, "first frame of the global collapse (which takes about 0.05 s of capture)")
-	f.StringVar(&s.Fail, "fail", s.Fail, `member that buckles first (e.g. AB-d1, AB-x1a, leg-B), "twist" for a tower that twists as a whole, or empty for the pattern's default (a long diagonal on the face toward the camera; for horizontal bracing the leg nearest the camera over its full height)`)
+	f.StringVar(&s.Fail, "fail", s.Fail, `member that buckles first (e.g. AB-d1, AB-x1a, leg-B), "twist" for a tower that twists as a whole, joint-<leg><level> for a glued joint that lets go (joint-B2: its braces come off; joint-A0: leg A's foot slides off the base), or empty for the pattern's default (a long diagonal on the face toward the camera; for horizontal bracing the leg nearest the camera over its full height)`)
 	f.Float64Var(&s.TwistDeg, "twist-deg", s.TwistDeg, "top twist when the first member breaks (--fail twist: at collapse), degrees counter-clockwise from above; negative = pattern default (6 for horizontal bracing or --fail twist, else 0.8)")
 	f.Float64Var(&s.SwayMM, "sway-mm", s.SwayMM, "top sway when the first member breaks (--fail twist: at collapse), mm")
 	f.Float64Var(&s.Noise, "noise", s.Noise, "sensor noise, standard deviation in 8-bit grey levels at mid grey (grows with brightness)")
