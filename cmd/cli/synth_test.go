@@ -66,6 +66,8 @@ func TestSynthBadOptionsExit2(t *testing.T) {
 		{"onset after collapse", []string{"synth", "--out", "o", "--onset-frame", "450", "--collapse-frame", "400"}, "onset frame 450 is not before the collapse frame 400"},
 		{"unknown pattern", []string{"synth", "--out", "o", "--bracing", "k-brace"}, `unknown bracing pattern "k-brace"`},
 		{"unknown member", []string{"synth", "--out", "o", "--fail", "AB-q9"}, `unknown member "AB-q9"`},
+		{"unknown joint", []string{"synth", "--out", "o", "--fail", "joint-Q1"}, `unknown joint "joint-Q1"`},
+		{"tower off the frame", []string{"synth", "--out", "o", "--focal-px", "3000"}, "does not fit"},
 		{"not a number", []string{"synth", "--out", "o", "--frames", "many"}, "invalid argument"},
 		{"stray argument", []string{"synth", "--out", "o", "extra"}, "accepts 0 arg"},
 	}
