@@ -8,6 +8,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"gocv.io/x/gocv"
 )
 
 // overwrite replaces n bytes of a copy of src at offset with the byte b.
@@ -178,6 +180,7 @@ func TestDamagedMiddleMJPEG(t *testing.T) {
 	}
 	bad := overwrite(t, clip, filepath.Join(t.TempDir(), "bad.avi"), off+8, 400, 0)
 	badFrames := checkAgainstFFmpeg(t, bad, 0)
+	seekIntoDamage(t, bad, badFrames)
 	// The stream index says which chunk is which frame; the 30th chunk
 	// after the header list is frame 29 (one "00dc" appears in the header).
 	if len(badFrames) != 1 || (badFrames[0] != 28 && badFrames[0] != 29) {
@@ -202,6 +205,41 @@ func TestDamagedMiddleH264(t *testing.T) {
 	for _, f := range badFrames {
 		if f < 1 || f >= 100 {
 			t.Errorf("bad frame %d outside the damaged group of pictures", f)
+		}
+	}
+	seekIntoDamage(t, bad, badFrames)
+}
+
+// seekIntoDamage seeks to bad frames (Read must report each by number) and
+// to the good frames around them (Read must give what reading in order gave).
+func seekIntoDamage(t *testing.T, clip string, badFrames []int) {
+	t.Helper()
+	src, err := Open(clip, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer src.Close()
+	good, bad := readAll(t, src)
+	last := len(good) + len(bad) - 1
+	m := gocv.NewMat()
+	defer m.Close()
+	targets := []int{}
+	for _, b := range badFrames {
+		targets = append(targets, b+1, b, b-1)
+	}
+	targets = append(targets, 0, badFrames[0], last, last-1, badFrames[len(badFrames)-1])
+	for _, f := range targets {
+		if err := src.Seek(f); err != nil {
+			t.Fatalf("seek %d: %v", f, err)
+		}
+		got, err := src.Read(&m)
+		var fe *FrameError
+		if md, ok := good[f]; ok {
+			if err != nil || got != f || matMD5(m) != md {
+				t.Errorf("seek %d: read frame %d, %v; pixels as read in order: %v", f, got, err, matMD5(m) == md)
+			}
+		} else if got != f || !errors.As(err, &fe) || fe.Frame != f {
+			t.Errorf("seek to bad frame %d: read frame %d, %v; want a FrameError for it", f, got, err)
 		}
 	}
 }
