@@ -49,6 +49,10 @@ const (
 	// length, percent, taken as a break (with eight standard deviations of
 	// the baseline's frame-to-frame changes).
 	BreakStrainPct = 0.2
+	// CollapseGuardRows is how many rows before a detected collapse a break
+	// with no bow before it is taken as part of the collapse (a collapse is
+	// found a frame or two after it starts).
+	CollapseGuardRows = 3
 	// TwistFloorDeg is the smallest twist change taken as a twist onset, degrees.
 	TwistFloorDeg = 0.25
 	// TwistModeDeg is the twist before collapse that, with no member bowing
@@ -190,7 +194,9 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 	firstIsBreak := false
 	if first == nil {
 		for _, f := range finds {
-			if f.brk >= 0 && (colRow < 0 || f.brk < colRow) && (first == nil || f.brk < first.brk) {
+			// A break in the last CollapseGuardRows before the collapse is
+			// part of it.
+			if f.brk >= 0 && (colRow < 0 || f.brk < colRow-CollapseGuardRows) && (first == nil || f.brk < first.brk) {
 				first = f
 			}
 		}
@@ -611,7 +617,7 @@ const CollapseSpeedMM = 0.5
 
 // jumpStart finds the first row f from which x stays for two rows above
 // max(mean + 10 sigma, floor, factor x mean) of the baseline window, and
-// returns where that rise began (the last rise through mean + 3 sigma)
+// returns where that rise began (the last rise through half that level)
 // and f; -1, -1 when none.
 func jumpStart(x []float64, nb int, floor, factor float64) (start, f int) {
 	mu, sd, cnt := meanStd(x[:min(nb, len(x))])
@@ -630,9 +636,11 @@ func jumpStart(x []float64, nb int, floor, factor float64) (start, f int) {
 	if f < 0 {
 		return -1, -1
 	}
-	// The rise starts where the signal last came up through mean + 3 sigma.
+	// The rise starts where the signal last came up through half the
+	// level (and mean + 3 sigma), so a slow build-up before it is not taken
+	// for the jump.
 	start = f
-	for start > nb && (math.IsNaN(x[start-1]) || x[start-1] > mu+3*sd) {
+	for start > nb && (math.IsNaN(x[start-1]) || x[start-1] > math.Max(mu+3*sd, level/2)) {
 		start--
 	}
 	return start, f

@@ -145,14 +145,15 @@ type point struct {
 
 // rows gives undistorted positions of a point per row.
 type geom struct {
-	in     Input
-	s      float64
-	pts    map[string]*point
-	order  []string
-	n      int
-	undist func(x, y float64) (float64, float64)
-	cam    *Pinhole             // nil when no camera could be fitted
-	excess map[string][]float64 // per joint id, per row: deflection beyond what the levels' motion explains, mm
+	in        Input
+	s         float64
+	pts       map[string]*point
+	order     []string
+	n         int
+	undist    func(x, y float64) (float64, float64)
+	cam       *Pinhole             // nil when no camera could be fitted
+	excess    map[string][]float64 // per joint id, per row: deflection beyond what the levels' motion explains, mm (trailing median)
+	excessRaw map[string][]float64 // the same, row by row
 }
 
 // jointExcess returns, for each leg joint between its leg's end levels,
@@ -168,6 +169,7 @@ func (g *geom) jointExcess(legs []Leg, levels []Level) map[string][]float64 {
 		byLevel[levels[i].Level] = &levels[i]
 	}
 	out := map[string][]float64{}
+	g.excessRaw = map[string][]float64{}
 	for li := range legs {
 		l := &legs[li]
 		n := len(l.Points)
@@ -199,6 +201,7 @@ func (g *geom) jointExcess(legs []Leg, levels []Level) map[string][]float64 {
 			}
 			// A leg bends over many frames; a median over ExcessWindow rows
 			// keeps a single noisy row from taking a joint out of its level.
+			g.excessRaw[p.id] = ex
 			out[p.id] = movingMedian(ex, ExcessWindow)
 		}
 	}
@@ -246,10 +249,25 @@ func (g *geom) bowingJoint(ps []*point, row int) int {
 			continue
 		}
 		idx = append(idx, i)
-		r = append(r, ex[row])
+		v := ex[row]
+		// A joint kicked away at once (a leg snapping) counts at once; the
+		// median would take a few rows to follow it.
+		if raw := g.excessRaw[p.id]; row < len(raw) && math.Abs(raw[row]) > 10*JointBowMM && math.Abs(raw[row]) > math.Abs(v) {
+			v = raw[row]
+		}
+		r = append(r, v)
 	}
 	if len(r) < 3 {
-		return -1
+		// Too few joints to compare: only a joint plainly carried off its
+		// level (KickedMM) is named; the caller then drops the row if too
+		// few points remain.
+		best, bi := 0.0, -1
+		for j := range r {
+			if a := math.Abs(r[j]); a > KickedMM && a > best {
+				best, bi = a, idx[j]
+			}
+		}
+		return bi
 	}
 	best, bi := 0.0, -1
 	for j := range r {
@@ -502,6 +520,9 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 			if len(us) < 2 || len(ps) < 2 {
 				continue
 			}
+			if L.Observable && g.lostCarried(ps, row) {
+				continue
+			}
 			if L.Observable && spread(es) >= MinDepthFrac*L.WidthMM {
 				// A joint carried off by its bending leg is left out of the
 				// rigid fit and added back as the mean of the corners does.
@@ -510,6 +531,9 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 				if bj >= 0 {
 					fq, fe, fu = without(qs, bj), without(es, bj), without(us, bj)
 					if len(fq) < 2 || spread(fe) < MinDepthFrac*L.WidthMM {
+						if g.kicked(vp[bj].id, row) {
+							continue // no number rather than a wrong one
+						}
 						bj, fq, fe, fu = -1, qs, es, us
 					}
 				}
@@ -627,6 +651,10 @@ func (g *geom) perspectivePass(cam *Pinhole, L *Level, ps []*point, toward, r [2
 		if L.Observable && !twist {
 			continue // this row lacks the points that show twist
 		}
+		if L.Observable && g.lostCarried(ps, row) {
+			L.TwistDeg[row], L.SwayMM[row] = math.NaN(), math.NaN()
+			continue
+		}
 		if !twist {
 			x0[0] = 0
 		}
@@ -636,6 +664,9 @@ func (g *geom) perspectivePass(cam *Pinhole, L *Level, ps []*point, toward, r [2
 			if bj = g.bowingJoint(vp, row); bj >= 0 {
 				if fe := without(es, bj); len(fe) >= 2 && spread(fe) >= MinDepthFrac*L.WidthMM {
 					fx, fr, fo = without3(xyz, bj), without2(ref, bj), without2(obs, bj)
+				} else if g.kicked(vp[bj].id, row) {
+					L.TwistDeg[row], L.SwayMM[row] = math.NaN(), math.NaN()
+					continue // no number rather than a wrong one
 				} else {
 					bj = -1
 				}
@@ -728,9 +759,42 @@ func without3(x [][3]float64, i int) [][3]float64 {
 	return append(append([][3]float64(nil), x[:i]...), x[i+1:]...)
 }
 
+// KickedMM is a joint's excess deflection, mm, beyond which it is plainly
+// not moving with its level (its leg has snapped or slipped): such a joint
+// is left out of the level's fit even where there are too few joints to
+// compare, and the row is given no number rather than a wrong one.
+const KickedMM = 1.0
+
 // JointBowMM is the smallest deflection of a joint from its leg's chord,
 // beyond what the levels' motion explains, in mm, for which the joint is
 // treated as carried by its bending leg rather than moving with its level
 // (well above tracking noise, small enough that a bending leg barely pulls
 // the level's fit; common practice).
 const JointBowMM = 0.1
+
+// kicked reports whether a joint's excess deflection in row is beyond KickedMM.
+func (g *geom) kicked(id string, row int) bool {
+	raw := g.excessRaw[id]
+	return row < len(raw) && math.Abs(raw[row]) > KickedMM
+}
+
+// lostCarried reports whether a level point that is not tracked in row was
+// being carried off its level by its own leg when last seen: the mean of
+// the level's corners then cannot be told, so the row gets no number.
+func (g *geom) lostCarried(ps []*point, row int) bool {
+	for _, p := range ps {
+		if _, _, ok := g.at(p, row); ok {
+			continue
+		}
+		ex := g.excess[p.id]
+		for r := min(row, len(ex)) - 1; r >= 0; r-- {
+			if !math.IsNaN(ex[r]) {
+				if math.Abs(ex[r]) >= 3*JointBowMM {
+					return true
+				}
+				break
+			}
+		}
+	}
+	return false
+}

@@ -463,6 +463,7 @@ func chordParam(a, b, p [2]float64) float64 {
 // conditioned the full 2D offset gives both components; otherwise only the
 // e1 component is used (the smallest 3D bow that explains the image).
 type bowModel struct {
+	n    [2]float64    // unit image normal of the chord
 	m    [2][2]float64 // columns: image of e1, e2 (px per mm)
 	inv  [2][2]float64
 	full bool
@@ -496,7 +497,15 @@ func (g *geom) newBowModel(a, b *point, t float64) *bowModel {
 	if !ok1 || !ok2 {
 		return nil
 	}
-	bm := &bowModel{m: [2][2]float64{{j1[0], j2[0]}, {j1[1], j2[1]}}}
+	dpx := math.Hypot(b.ref[0]-a.ref[0], b.ref[1]-a.ref[1])
+	if dpx == 0 {
+		return nil
+	}
+	bm := &bowModel{n: [2]float64{-(b.ref[1] - a.ref[1]) / dpx, (b.ref[0] - a.ref[0]) / dpx},
+		m: [2][2]float64{{j1[0], j2[0]}, {j1[1], j2[1]}}}
+	if w := math.Hypot(bm.n[0]*j1[0]+bm.n[1]*j1[1], bm.n[0]*j2[0]+bm.n[1]*j2[1]); !(w > 0.25/g.s) {
+		return nil // the chord's normal hardly sees any bow: fall back to the marks' scale
+	}
 	n1 := math.Hypot(j1[0], j1[1])
 	if !(n1 > 0.5/g.s) || !(n1 < 2/g.s) {
 		return nil
@@ -524,17 +533,28 @@ const (
 )
 
 // bow returns the 3D bow in mm for an image offset (dx, dy) px; full
-// allows the oblique component to be used.
+// allows the oblique component to be used. The offset across the chord is
+// what a tracker measures best (the member's edges lie along it); alone it
+// gives the smallest bow that explains it, b1. The full solve b2 also uses
+// the offset along the chord, where trackers slip along a thin member, so
+// it is trusted only up to BowObliqueMax times b1.
 func (bm *bowModel) bow(dx, dy float64, full bool) float64 {
+	perp := dx*bm.n[0] + dy*bm.n[1]
+	w := math.Hypot(bm.n[0]*bm.m[0][0]+bm.n[1]*bm.m[1][0], bm.n[0]*bm.m[0][1]+bm.n[1]*bm.m[1][1])
+	b1 := math.Abs(perp) / w
 	if bm.full && full {
 		al := bm.inv[0][0]*dx + bm.inv[0][1]*dy
 		be := bm.inv[1][0]*dx + bm.inv[1][1]*dy
-		return math.Hypot(al, be)
+		return math.Min(math.Hypot(al, be), BowObliqueMax*b1)
 	}
-	j1 := [2]float64{bm.m[0][0], bm.m[1][0]}
-	n2 := j1[0]*j1[0] + j1[1]*j1[1]
-	return math.Abs(dx*j1[0]+dy*j1[1]) / n2
+	return b1
 }
+
+// BowObliqueMax caps a bow read from both image components at this many
+// times the bow read across the chord alone: a bow seen from up to about
+// 40 degrees off its plane shows at least three quarters of itself across
+// the chord.
+const BowObliqueMax = 1.3
 
 // trailingLine smooths x without lag on steady trends: each row's value is
 // a straight line fitted to that row and the w-1 before it, evaluated at
