@@ -125,12 +125,13 @@ func TestFramesSheet(t *testing.T) {
 	// Its label band carries white text.
 	label := sheet.Region(image.Rect(192, 144+band, 384, 144+2*band))
 	defer label.Close()
-	if mx := label.Clone(); gocv.CountNonZero(grey(mx)) == 0 {
+	if mx := label.Clone(); gocv.CountNonZero(capWhiteMask(mx)) == 0 {
 		t.Errorf("no label stamped on tile 4")
 	}
 }
 
-func grey(m gocv.Mat) gocv.Mat {
+// capWhiteMask marks near-white pixels (label text).
+func capWhiteMask(m gocv.Mat) gocv.Mat {
 	g := gocv.NewMat()
 	gocv.CvtColor(m, &g, gocv.ColorBGRToGray)
 	gocv.Threshold(g, &g, 200, 255, gocv.ThresholdBinary)
@@ -160,7 +161,7 @@ func TestFramesBadInputs(t *testing.T) {
 		{"past the end", []string{"frames", clip, "--capture-fps", "1000", "--at", "0.5s", "--out", out}, ExitBadInput,
 			[]string{"frame 500 (0.500000 s) is past the end", "frames 0 to 29"}, 0},
 		{"undecodable frame skipped", []string{"frames", damaged, "--frame", "0", "--count", "40", "--capture-fps", "500", "--out", out}, ExitBadInput,
-			[]string{damaged, "1 of 40 frames could not be decoded", "frame " + itoaT(lost)}, 39},
+			[]string{damaged, "1 of 40 frames could not be decoded", "frame " + strconv.Itoa(lost)}, 39},
 		{"capture rate negative", []string{"frames", clip, "--frame", "1", "--capture-fps", "-1", "--out", out}, ExitUsage, []string{"capture rate -1 fps"}, 39},
 	}
 	for _, tt := range tests {
@@ -181,4 +182,3 @@ func TestFramesBadInputs(t *testing.T) {
 	}
 }
 
-func itoaT(i int) string { return strconv.Itoa(i) }
