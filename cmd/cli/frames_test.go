@@ -181,4 +181,3 @@ func TestFramesBadInputs(t *testing.T) {
 		})
 	}
 }
-
