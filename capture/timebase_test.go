@@ -7,6 +7,8 @@ import (
 	"testing"
 )
 
+// The expected frames are plain arithmetic, frame = round(seconds x rate)
+// (common practice for a constant-rate clip).
 func TestParsePosition(t *testing.T) {
 	tb := Timebase{CaptureFPS: 960, From: RateFromFlag}
 	tests := []struct {
@@ -45,6 +47,9 @@ func TestParsePosition(t *testing.T) {
 	}
 }
 
+// TestChooseRate checks the order flag, marks file, container and the
+// limits of a usable rate (above 0, at most 1e6 fps: common practice, the
+// fastest cameras used on model tests film at a few thousand fps).
 func TestChooseRate(t *testing.T) {
 	tests := []struct {
 		flag, marks, container float64
