@@ -171,7 +171,9 @@ func (s *imageSource) Read(dst *gocv.Mat) (int, error) {
 		g := s.gaps[i]
 		return f, &FrameError{Path: s.info.Path, Frame: f, Err: fmt.Errorf("no image for this frame: the numbering skips from %s to %s", g.before, g.next)}
 	}
-	img := gocv.IMRead(p, gocv.IMReadColor)
+	// Pixels as stored, ignoring any EXIF orientation, so that every
+	// frame has the size its header states.
+	img := gocv.IMRead(p, gocv.IMReadColor|gocv.IMReadIgnoreOrientation)
 	defer img.Close()
 	if img.Empty() {
 		return f, &FrameError{Path: p, Frame: f, Err: errors.New("image could not be decoded")}
