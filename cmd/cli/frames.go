@@ -61,7 +61,8 @@ its frame number and real time.
 Real time is frame / capture rate: give --capture-fps for a slow-motion
 clip, else the container's rate is used with a warning. Files are written
 whole or not at all. A frame that cannot be decoded is reported and skipped
-(the sheet shows it as a grey tile), and the exit status is then 3.` + exitHelp,
+(the sheet shows it as a grey tile), and the exit status is then 3.
+` + exitHelp,
 		Example: `  failframe frames tower.mp4 --capture-fps 960 --at 1.234s --count 8 --step 4 --out evidence
   failframe frames tower.mp4 --frame 1180 --count 16 --sheet --out evidence`,
 		Args: exactArgs(1),

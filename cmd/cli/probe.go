@@ -72,7 +72,8 @@ used and real times are likely wrong.
 The frame count comes from the container. With --count, or when the
 container has none, every frame is decoded: that finds the true count and
 every missing or undecodable frame. The exit status is 3 when that scan
-finds bad frames or a clip shorter than its container says.` + exitHelp,
+finds bad frames or a clip shorter than its container says.
+` + exitHelp,
 		Example: `  failframe probe tower.mp4 --capture-fps 960
   failframe probe stills/ --image-fps 2000 --json
   failframe probe tower.mp4 --count`,
