@@ -36,6 +36,7 @@ type ClipError struct {
 	Err error
 }
 
+// Error names the clip and the problem.
 func (e *ClipError) Error() string { return fmt.Sprintf("clip %s: %v", e.Path, e.Err) }
 
 // Unwrap returns the underlying problem.
