@@ -394,21 +394,26 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
 	if col >= 0 {
 		shots = append(shots, evidence.Shot{Frame: col, File: "collapse.png", Caption: fmt.Sprintf("Frame %d: the tower collapses", col)})
 	}
-	// The failure window: from the first event to a little after the collapse.
-	ws, we := -1, -1
+	// The failure window: from the first member's onset (else the first
+	// member event, else the twist onset) to the collapse (else the last
+	// event), at most maxWindowFrames long, so that the frames read again stay few.
+	ws, we := onset, col
 	for _, e := range w.res.Events {
-		if e.Kind == "lost" {
-			continue
-		}
-		if ws < 0 || e.Frame < ws {
+		if ws < 0 && (e.Kind == "onset" || e.Kind == "break") {
 			ws = e.Frame
 		}
-		if e.Frame > we {
+		if col < 0 && e.Kind != "lost" && e.Frame > we {
 			we = e.Frame
 		}
 	}
 	if ws < 0 {
+		ws = w.eventFrame("twist_onset", "")
+	}
+	if we < 0 || ws < 0 || ws > we {
 		ws, we = first+(last-first)*2/3, last
+	}
+	if we-ws > maxWindowFrames {
+		ws = we - maxWindowFrames
 	}
 	pad := max(5, (we-ws)/10)
 	ws, we = max(first, ws-pad), min(last, we+pad)
@@ -456,6 +461,9 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
 	}
 	return err
 }
+
+// maxWindowFrames bounds the failure window of the contact sheet.
+const maxWindowFrames = 600
 
 // maxClipFrames bounds the annotated failure clip.
 const maxClipFrames = 200
