@@ -49,6 +49,9 @@ const (
 	// length, percent, taken as a break (with eight standard deviations of
 	// the baseline's frame-to-frame changes).
 	BreakStrainPct = 0.2
+	// JointBreakStrainPct is the smallest chord step, percent, taken as a
+	// break of a member that did not bow first.
+	JointBreakStrainPct = 0.5
 	// CollapseGuardRows is how many rows before a detected collapse a break
 	// with no bow before it is taken as part of the collapse (a collapse is
 	// found a frame or two after it starts).
@@ -162,11 +165,28 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 		}
 	}
 
-	// Legs: summarise at the largest deflection before the collapse.
+	// Legs: summarise a leg that began to bow at its largest deflection
+	// before the collapse; the others did not buckle.
+	bowed := map[string]bool{}
+	legEnd := map[string]int{}
+	for _, f := range finds {
+		if f.onset >= 0 && f.leg != "" {
+			bowed[f.leg] = true
+			legEnd[f.leg] = end
+			if f.brk >= 0 && f.brk < end {
+				legEnd[f.leg] = f.brk // its shape before it broke
+			}
+		}
+	}
 	for i := range res.Legs {
 		l := &res.Legs[i]
+		if !bowed[l.Leg] {
+			l.SummarizeAt(-1)
+			l.Note = fmt.Sprintf("leg %s did not bow beyond 0.5%% of its length before the collapse", l.Leg)
+			continue
+		}
 		best, bestRow := 0.0, -1
-		for r := 0; r < end && r < len(l.DeflectionMM); r++ {
+		for r := 0; r < legEnd[l.Leg] && r < len(l.DeflectionMM); r++ {
 			row := l.DeflectionMM[r]
 			okRow := true
 			for _, v := range row {
@@ -232,7 +252,7 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 	var firstLeg *Leg
 	bigTwist := !math.IsNaN(d.TopTwistDeg) && math.Abs(d.TopTwistDeg) >= TwistModeDeg
 	switch {
-	case (first == nil || firstIsBreak) && (twRow >= 0 && bigTwist):
+	case first == nil && twRow >= 0 && bigTwist:
 		d.Mode = ModeTowerTwist
 	case first != nil && !firstIsBreak && first.m.Kind == "leg":
 		for i := range res.Legs {
@@ -385,6 +405,12 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 		sd = 0
 	}
 	strainJump := math.Max(6*sd, BreakStrainPct) // percent
+	if onset < 0 {
+		// Without a bow first, only a clear step counts (a glue joint or
+		// the base letting go), not the stretching of a brace whose end is
+		// carried by a bending leg.
+		strainJump = math.Max(strainJump, JointBreakStrainPct)
+	}
 	var db []float64
 	for r := 1; r < min(nb, n); r++ {
 		db = append(db, m.BowMM[r]-m.BowMM[r-1])
@@ -793,7 +819,9 @@ func adviceFor(mode string, first *Member, res *Result) []string {
 	case ModeLegBetweenBraces:
 		a = append(a, "A leg buckled between braced levels, so the bracing did its job: to go further, shorten the panels (more levels: halving the panel height gives 4 times the Euler load) or use a stiffer leg section (the second moment of area of a square leg grows with the fourth power of its side).")
 	case ModeBraceBuckling:
-		if first != nil && first.Levels[1] > first.Levels[0] && first.Levels[0] >= 0 {
+		if first != nil && crossed(first, res) {
+			a = append(a, fmt.Sprintf("The crossed diagonal %s (%.0f mm long) buckled between its end and the crossing: the crossing already halves its length, so give it a deeper section (the second moment of area grows with the cube of the depth in the bending direction) or shorten the panels.", first.ID, first.LengthMM))
+		} else if first != nil && first.Levels[1] > first.Levels[0] && first.Levels[0] >= 0 {
 			a = append(a, fmt.Sprintf("The diagonal %s (%.0f mm long) buckled first: glue an X crossing at its mid-length so it buckles over half the length (4 times the Euler load), or use a deeper section for it.", first.ID, first.LengthMM))
 		} else if first != nil {
 			a = append(a, fmt.Sprintf("The brace %s (%.0f mm long) buckled first: brace it at mid-length or use a stiffer section; halving its unbraced length gives 4 times the Euler load.", first.ID, first.LengthMM))
@@ -814,3 +842,27 @@ func adviceFor(mode string, first *Member, res *Result) []string {
 }
 
 func sameSign(a, b float64) bool { return (a > 0) == (b > 0) }
+
+// crossed reports whether a brace shares an interior point with another
+// brace (an X pair glued at the crossing).
+func crossed(m *Member, res *Result) bool {
+	if len(m.Points) < 3 {
+		return false
+	}
+	inner := map[string]bool{}
+	for _, id := range m.Points[1 : len(m.Points)-1] {
+		inner[id] = true
+	}
+	for i := range res.Members {
+		o := &res.Members[i]
+		if o.ID == m.ID || o.Kind != "brace" || len(o.Points) < 3 {
+			continue
+		}
+		for _, id := range o.Points[1 : len(o.Points)-1] {
+			if inner[id] {
+				return true
+			}
+		}
+	}
+	return false
+}

@@ -175,6 +175,10 @@ func TestDiagnoseScenarios(t *testing.T) {
 func TestAdviceByMode(t *testing.T) {
 	diag := &Result{Members: []Member{{ID: "AB-d2", Kind: "brace", Levels: [2]int{1, 2}, LengthMM: 99}}}
 	horiz := &Result{Members: []Member{{ID: "AB-h2", Kind: "brace", Levels: [2]int{2, 2}, LengthMM: 75}}}
+	xpair := &Result{Members: []Member{
+		{ID: "AB-x1a", Kind: "brace", Levels: [2]int{0, 1}, LengthMM: 121, Points: []string{"A0", "AB-x1a-q1", "AB-x1-cross", "AB-x1a-q3", "B1"}},
+		{ID: "AB-x1b", Kind: "brace", Levels: [2]int{0, 1}, LengthMM: 121, Points: []string{"B0", "AB-x1b-q1", "AB-x1-cross", "AB-x1b-q3", "A1"}},
+	}}
 	for _, tc := range []struct {
 		mode string
 		res  *Result
@@ -185,6 +189,7 @@ func TestAdviceByMode(t *testing.T) {
 		{ModeLegFullHeight, diag, "glued"},
 		{ModeLegBetweenBraces, diag, "4 times the Euler load"},
 		{ModeBraceBuckling, diag, "X crossing"},
+		{ModeBraceBuckling, xpair, "deeper section"},
 		{ModeJointOrBase, diag, "glue"},
 		{ModeUndetermined, diag, "15-35 degrees"},
 	} {

@@ -22,48 +22,77 @@
 // level's points span less than MinDepthFrac of the level's width in depth,
 // its twist is reported as not observable rather than as a number.
 //
+// That near-orthographic model is the fallback. When the marks give plan
+// positions and heights for at least six points not in one plane (leg
+// joints on two faces with the tower block), a pinhole camera is fitted to
+// them by the direct linear transform, and each level's twist, plan
+// displacement and settlement are solved through it frame by frame
+// (Levenberg-Marquardt on the points' displacements from the reference
+// frame); the level's weakly seen motion toward the camera is first
+// estimated, smoothed over DepthWindow frames and then held as a firm prior.
+//
 // Definitions shared with the synthesizer's truth: twist in degrees,
 // counter-clockwise seen from above positive; sway in mm, the displacement of
 // the level centre along the camera's right vector (image-horizontal);
 // settlement in mm, positive down.
 //
+// # Members and legs
+//
+// A member's bow is the 3D distance of its interior points from its chord,
+// as a change since the reference frame. Bending moves points
+// perpendicular to the member, so with a camera fitted to the marked points
+// (a pinhole fitted by the direct linear transform to the points with known
+// plan positions and heights) the image offset across the chord gives the
+// smallest bow that explains it; the offset along the chord, where trackers
+// slip on thin members, may raise that by at most BowObliqueMax. A member's
+// strain is its chord length change; where both ends are at levels, the
+// image length change that the levels' rigid motions explain is replaced by
+// the 3D length change they imply. A leg's deflection is each marked
+// point's offset from the straight line through the leg's ends; its shape is
+// fitted with half-sines of 1 to 4 half-waves, giving the half-wavelength
+// and the effective length factor K = half-wavelength / leg length (Euler:
+// P = pi^2 E I / (K L)^2).
+//
 // # Events
 //
 // A member's buckling onset is the first frame from which its bow stays at
-// or above 0.5 % of its length for several frames (SustainRows), provided
-// Page's one-sided CUSUM on the bow has signalled a departure from the
-// baseline taken in an early window (reference value k = 0.5 sigma,
-// decision interval h = 5 sigma); the CUSUM's change point (where the bow
-// began to grow) is given in the event's detail. A bow is the 3D distance of
-// an interior point from the member's chord: bending moves points
-// perpendicular to the member, and with a camera fitted to the marked points
-// both components of that offset are read from the image while the member
-// keeps its place. A break is a sudden jump of the chord length or of an end
-// point, a lost track on one of the member's points, or a collapse of the
-// bow after onset. Twist onset is where the top observable level's twist
-// leaves its early trend (a two-sided CUSUM on the departure, at least
-// TwistFloorDeg). Collapse is a jump of the motion energy (when given), of
-// the top level's displacement, or the loss of most points.
+// or above 0.5 % of its length for SustainRows frames, provided Page's
+// one-sided CUSUM on the bow (baseline mean and standard deviation from the
+// first fifth of the clip, 10 to 200 frames; reference value k = 0.5 sigma,
+// decision interval h = 5 sigma) has signalled by then; a bow that jumps
+// over that floor in one frame is a break, not buckling. The CUSUM's change
+// point, where the bow began to grow, is given in the event's detail.
+// A break is a step of the chord length (three frames against the three
+// before, less the trend of the twelve before that, lasting at least six
+// frames), a jump of an end point, a lost track on one of the member's
+// points, or a collapse of the bow after onset. Twist onset is where the
+// top observable level's twist leaves the straight-line trend of the
+// baseline window (a two-sided CUSUM on the departure, which must reach
+// TwistFloorDeg). Collapse is where a jump of the motion energy (when
+// given) or of the top level's speed began, or where most points were lost.
 //
 // A level's twist and sway are those of the mean of its four corners: a
 // corner carried off by its own bending leg is left out of the rigid fit
 // and then added back with a quarter weight, as the mean of the corners
-// takes it.
+// takes it; when such a corner is lost, or snaps away with too few points
+// left, the frame gets no number rather than a wrong one.
 //
 // # Failure modes
 //
 // Diagnose labels a failure with one of these, checked in this order:
 //
-//   - tower_twist: no member began to bow before the collapse, the top
-//     observable level's twist left its early trend (twist_onset), and it
-//     had twisted by TwistModeDeg or more before the collapse.
-//   - leg_full_height: the first member to go is a leg and its deflected
+//   - tower_twist: no member began to bow before the collapse (nor broke
+//     more than CollapseGuardRows before it), the top observable level's
+//     twist left its early trend (twist_onset), and it had twisted by
+//     TwistModeDeg or more before the collapse.
+//   - leg_full_height: the first member to bow is a leg and its deflected
 //     shape is one half-wave over the leg's whole height (K near 1).
-//   - leg_between_braces: the first member to go is a leg and its deflected
-//     shape has two or more half-waves, i.e. it buckled between braced levels.
-//   - brace_buckling: the first member to go is a brace that bowed before it
-//     broke.
-//   - joint_or_base: a member broke or lost its track, or the tower
-//     collapsed, with no bow onset before it: a glue joint or the base let go.
-//   - undetermined: none of the above could be seen.
+//   - leg_between_braces: the first member to bow is a leg and its deflected
+//     shape has two or more half-waves, i.e. it buckled between braced points
+//     (this needs marked points between the levels on the legs).
+//   - brace_buckling: the first member to bow is a brace.
+//   - joint_or_base: no member bowed, but one broke or lost its track before
+//     the collapse, or the tower collapsed without warning: a glue joint or
+//     the base let go.
+//   - undetermined: nothing of the above was seen.
 package measure

@@ -103,6 +103,18 @@ func checkAgainstTruth(t *testing.T, tr *synth.Truth, res *measure.Result, d *me
 	if d.FirstMember != tr.FirstMember {
 		t.Errorf("first member %q, truth %q", d.FirstMember, tr.FirstMember)
 	}
+	// A leg that buckled over its full height reads as one half-wave with
+	// an effective length factor near 1 (pinned-pinned over the leg).
+	if tr.FailureMode == measure.ModeLegFullHeight {
+		for _, l := range res.Legs {
+			if "leg-"+l.Leg == tr.FirstMember {
+				t.Logf("leg %s: %s, K = %.2f", l.Leg, l.Shape, l.K)
+				if l.Shape != measure.ShapeFullHeight || math.Abs(l.K-1) > 0.15 {
+					t.Errorf("leg %s: shape %s with K %.2f, want full_height with K near 1", l.Leg, l.Shape, l.K)
+				}
+			}
+		}
+	}
 	if tr.FirstMember == "" {
 		return
 	}
