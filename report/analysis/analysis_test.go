@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"sync"
 	"testing"
@@ -167,6 +168,72 @@ func TestRunOnSynthClip(t *testing.T) {
 	}
 	if page.Images < 8 || page.BrokenImages != 0 {
 		t.Errorf("%d images, %d broken", page.Images, page.BrokenImages)
+	}
+}
+
+// TestRunOtherSceneAndLogLayout checks a different test: horizontal-only
+// bracing (a leg goes over its full height), 240 fps, camera at 40 degrees,
+// a lighter tower, and the load log rewritten as a space-separated file in
+// seconds and newtons with comment lines (1 g = 9.80665e-3 N under standard
+// gravity, CGPM 1901).
+func TestRunOtherSceneAndLogLayout(t *testing.T) {
+	s := synth.Default()
+	s.Seed = 21
+	s.Bracing = "horizontal"
+	s.CaptureFPS = 240
+	s.Frames = 200
+	s.OnsetFrame, s.BreakFrame, s.CollapseFrame = 80, 140, 146
+	s.AzimuthDeg = 40
+	s.PeakLoadG = 2300
+	s.MassG = 14.2
+	s.SkipMP4 = true
+	dir := t.TempDir()
+	truth, err := synth.Write(s, dir, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Rewrite load.csv (time_ms,load_g) as "t [s]  Force (N)".
+	src := readLog(t, filepath.Join(dir, synth.LoadFile))
+	var b strings.Builder
+	b.WriteString("# bench logger, 80 Hz\n# tared with the empty hook\nt [s]   Force (N)\n")
+	for i, ts := range src.TimesS {
+		b.WriteString(strconv.FormatFloat(ts, 'f', 3, 64) + "   " + strconv.FormatFloat(src.LoadG[i]*loadlog.StandardGravity/1000, 'f', 5, 64) + "\n")
+	}
+	logN := filepath.Join(dir, "load_n.txt")
+	if err := os.WriteFile(logN, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	cfg := config(dir, filepath.Join(t.TempDir(), "report"))
+	cfg.Load, cfg.MassG = logN, 14.2
+	res, err := Run(cfg, Progress{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.LoadLog == nil || !strings.Contains(res.LoadLog.Detected, "in N (header)") || !strings.Contains(res.LoadLog.Detected, "in s (header)") {
+		t.Errorf("detected %+v", res.LoadLog)
+	}
+	if res.Alignment == nil {
+		t.Fatal("no alignment")
+	}
+	if e := math.Abs(res.Alignment.OffsetS - truth.LoadOffsetS); e > truth.LoadPeriodS {
+		t.Errorf("offset error %.5f s > one sample period %.4f s (%s)", e, truth.LoadPeriodS, res.Alignment.Detail)
+	} else {
+		t.Logf("offset error %.5f s", e)
+	}
+	g, ok := src.At(float64(truth.OnsetFrame)/truth.CaptureFPS - res.Alignment.OffsetS)
+	if !ok || math.Abs(g-truth.LoadAtOnsetG) > 0.01*truth.LoadAtOnsetG {
+		t.Errorf("load at the true onset %.1f g, truth %.1f g", g, truth.LoadAtOnsetG)
+	}
+	for _, e := range res.Events {
+		if e.Kind == "onset" && e.Member == truth.FirstMember {
+			if e.LoadG == nil || math.Abs(*e.LoadG-truth.LoadAtOnsetG) > 0.01*truth.LoadAtOnsetG {
+				t.Errorf("reported onset load %v, truth %.1f g", e.LoadG, truth.LoadAtOnsetG)
+			}
+		}
+	}
+	// Efficiency against the synthesizer's own figure (peak / mass, common practice).
+	if res.Efficiency == nil || math.Abs(*res.Efficiency-truth.Efficiency) > 0.005*truth.Efficiency {
+		t.Errorf("efficiency %v, truth %g", res.Efficiency, truth.Efficiency)
 	}
 }
 
