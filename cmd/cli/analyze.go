@@ -9,6 +9,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"github.com/failframe/failframe/capture"
 	"github.com/failframe/failframe/report"
 	"github.com/failframe/failframe/report/analysis"
 	"github.com/failframe/failframe/report/loadlog"
@@ -113,6 +114,16 @@ to failure.` + exitHelp,
 			}
 			if c.MassG < 0 || math.IsNaN(c.MassG) || math.IsInf(c.MassG, 0) {
 				return &FlagError{Err: fmt.Errorf("--mass-g %g: want the structure's mass in grams, above 0", c.MassG)}
+			}
+			// The syntax of --from and --to is checked now; the frame they
+			// name needs the capture rate, known once the clip is open.
+			for name, v := range map[string]string{"from": c.From, "to": c.To} {
+				if v == "" {
+					continue
+				}
+				if _, err := capture.ParsePosition(v, capture.Timebase{CaptureFPS: 1000}); err != nil {
+					return &FlagError{Err: fmt.Errorf("--%s: %w", name, err)}
+				}
 			}
 			if c.CaptureFPS < 0 || math.IsNaN(c.CaptureFPS) {
 				return &FlagError{Err: fmt.Errorf("--capture-fps %g: want a rate above 0", c.CaptureFPS)}

@@ -59,6 +59,8 @@ func TestAnalyzeArgsToOptions(t *testing.T) {
 		{name: "bad sync", args: append(base, "--load", "l.csv", "--sync", "412"), code: ExitUsage, err: "FRAME@LOGTIME"},
 		{name: "bad sync time", args: append(base, "--load", "l.csv", "--sync", "4@soon"), code: ExitUsage, err: "not a number"},
 		{name: "bad unit", args: append(base, "--load", "l.csv", "--load-unit", "stone"), code: ExitUsage, err: "--load-unit"},
+		{name: "bad from", args: append(base, "--from", "soon"), code: ExitUsage, err: "--from"},
+		{name: "fractional to", args: append(base, "--to", "12.5"), code: ExitUsage, err: "--to"},
 		{name: "negative mass", args: append(base, "--mass-g", "-2"), code: ExitUsage, err: "--mass-g"},
 	}
 	for _, tt := range tests {
