@@ -1,7 +1,9 @@
 // Package report turns an analysis into what a builder reads and keeps: the
 // load log and its alignment to video time, plots, annotated evidence frames,
 // report.json and report.html. Sub-packages hold the load-log reader
-// (loadlog), the build record store (records) and the review page (review).
+// (loadlog), the clock alignment (align), the charts (plots), the annotated
+// evidence frames (evidence), the analyze pipeline (analysis), the build
+// record store (records) and the review page (review).
 package report
 
 // ResultVersion is the version of report.json's layout. Fields are only ever
