@@ -352,3 +352,33 @@ func TestUndistortHook(t *testing.T) {
 		}
 	}
 }
+
+// The 3D bow of a brace bowing in its face comes back through a true
+// pinhole projection (camera 1.5 m away at 25 deg): the face is seen
+// obliquely, so the image offset across the chord alone would read short.
+func TestMeasureBowPinhole(t *testing.T) {
+	s := newScene(25)
+	s.frames = 11
+	s.bow = func(id string, f int) float64 {
+		if id == "BC-d3" {
+			return 0.3 * float64(f)
+		}
+		return 0
+	}
+	m, tr := s.build()
+	res, err := Measure(Input{Marks: m, Tracks: tr})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, mm := range res.Members {
+		if mm.ID != "BC-d3" {
+			continue
+		}
+		// Face B-C is seen 65 deg off square, so this is a hard case.
+		if b := mm.BowMM[10]; math.Abs(b-3) > 0.1 {
+			t.Errorf("bow %.3f mm, want 3 within 0.1", b)
+		}
+		return
+	}
+	t.Fatal("BC-d3 missing")
+}

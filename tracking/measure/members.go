@@ -84,7 +84,7 @@ func (g *geom) members(levels []Level) []Member {
 			refOff[i] = perpOffset(a.ref, b.ref, ps[i].ref)
 			tpar[i] = chordParam(a.ref, b.ref, ps[i].ref)
 			refVec[i] = [2]float64{ps[i].ref[0] - (a.ref[0] + tpar[i]*(b.ref[0]-a.ref[0])), ps[i].ref[1] - (a.ref[1] + tpar[i]*(b.ref[1]-a.ref[1]))}
-			models[i] = g.newBowModel(a, b, tpar[i])
+			models[i] = g.newBowModel(a, b, tpar[i], mm.Kind == "brace")
 		}
 		// Turning with its levels changes a member's length in the image
 		// but not in the tower. Where the ends' level motions are known, the
@@ -464,12 +464,13 @@ func chordParam(a, b, p [2]float64) float64 {
 // e1 component is used (the smallest 3D bow that explains the image).
 type bowModel struct {
 	n    [2]float64    // unit image normal of the chord
+	cap  float64       // largest ratio of the full solve to the across-chord bow
 	m    [2][2]float64 // columns: image of e1, e2 (px per mm)
 	inv  [2][2]float64
 	full bool
 }
 
-func (g *geom) newBowModel(a, b *point, t float64) *bowModel {
+func (g *geom) newBowModel(a, b *point, t float64, brace bool) *bowModel {
 	if g.cam == nil || !a.hasPlan || !b.hasPlan || !a.hasH || !b.hasH {
 		return nil
 	}
@@ -503,8 +504,28 @@ func (g *geom) newBowModel(a, b *point, t float64) *bowModel {
 	}
 	bm := &bowModel{n: [2]float64{-(b.ref[1] - a.ref[1]) / dpx, (b.ref[0] - a.ref[0]) / dpx},
 		m: [2][2]float64{{j1[0], j2[0]}, {j1[1], j2[1]}}}
-	if w := math.Hypot(bm.n[0]*j1[0]+bm.n[1]*j1[1], bm.n[0]*j2[0]+bm.n[1]*j2[1]); !(w > 0.25/g.s) {
+	w := math.Hypot(bm.n[0]*j1[0]+bm.n[1]*j1[1], bm.n[0]*j2[0]+bm.n[1]*j2[1])
+	if !(w > 0.25/g.s) {
 		return nil // the chord's normal hardly sees any bow: fall back to the marks' scale
+	}
+	// How much of a bow within the brace's face shows across the chord: a
+	// face seen obliquely hides part of it, and the cap on the full solve
+	// widens by as much (up to 4 times).
+	bm.cap = BowObliqueMax
+	if brace && a.leg != "" && b.leg != "" && a.leg != b.leg {
+		pa, _ := legPlanDir(a.leg)
+		pb, _ := legPlanDir(b.leg)
+		if nf := unit3([3]float64{pa[0] + pb[0], pa[1] + pb[1], 0}); norm3(nf) > 0 {
+			if din := unit3(cross3(nf, chord)); norm3(din) > 0 {
+				b1, b2 := din[0]*e1[0]+din[1]*e1[1]+din[2]*e1[2], din[0]*e2[0]+din[1]*e2[1]+din[2]*e2[2]
+				across := math.Abs(bm.n[0]*(j1[0]*b1+j2[0]*b2)+bm.n[1]*(j1[1]*b1+j2[1]*b2)) / w
+				if across > 0.25 {
+					bm.cap = BowObliqueMax * math.Max(1, 1/across)
+				} else {
+					bm.cap = BowObliqueMax * 4
+				}
+			}
+		}
 	}
 	n1 := math.Hypot(j1[0], j1[1])
 	if !(n1 > 0.5/g.s) || !(n1 < 2/g.s) {
@@ -537,7 +558,8 @@ const (
 // what a tracker measures best (the member's edges lie along it); alone it
 // gives the smallest bow that explains it, b1. The full solve b2 also uses
 // the offset along the chord, where trackers slip along a thin member, so
-// it is trusted only up to BowObliqueMax times b1.
+// it is trusted only up to BowObliqueMax times b1 (times more for a brace
+// whose face is seen so obliquely that a bow in it hides across the chord).
 func (bm *bowModel) bow(dx, dy float64, full bool) float64 {
 	perp := dx*bm.n[0] + dy*bm.n[1]
 	w := math.Hypot(bm.n[0]*bm.m[0][0]+bm.n[1]*bm.m[1][0], bm.n[0]*bm.m[0][1]+bm.n[1]*bm.m[1][1])
@@ -545,15 +567,14 @@ func (bm *bowModel) bow(dx, dy float64, full bool) float64 {
 	if bm.full && full {
 		al := bm.inv[0][0]*dx + bm.inv[0][1]*dy
 		be := bm.inv[1][0]*dx + bm.inv[1][1]*dy
-		return math.Min(math.Hypot(al, be), BowObliqueMax*b1)
+		return math.Min(math.Hypot(al, be), bm.cap*b1)
 	}
 	return b1
 }
 
 // BowObliqueMax caps a bow read from both image components at this many
-// times the bow read across the chord alone: a bow seen from up to about
-// 40 degrees off its plane shows at least three quarters of itself across
-// the chord.
+// times the bow read across the chord alone (for a brace, times the part of
+// a bow in its face that shows across the chord).
 const BowObliqueMax = 1.3
 
 // trailingLine smooths x without lag on steady trends: each row's value is

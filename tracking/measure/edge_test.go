@@ -1,0 +1,81 @@
+package measure
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"github.com/failframe/failframe/tracking/tracks"
+)
+
+// Empty and hopeless inputs give clear answers, not panics or numbers.
+func TestEdgeCases(t *testing.T) {
+	s := newScene(25)
+	s.frames = 30
+	m, tr := s.build()
+
+	empty := &tracks.Tracks{IDs: tr.IDs}
+	res, err := Measure(Input{Marks: m, Tracks: empty, CaptureFPS: 1000})
+	if err != nil {
+		t.Fatalf("no frames: %v", err)
+	}
+	d := Diagnose(res, Input{Marks: m, Tracks: empty})
+	if d.Mode != ModeUndetermined || !strings.Contains(d.Account, "No frames") {
+		t.Errorf("no frames: mode %s, account %q", d.Mode, d.Account)
+	}
+
+	// Every point lost from frame 10 on: no numbers there, and the loss of
+	// most points is the collapse.
+	for i := 10; i < len(tr.Samples); i++ {
+		for j := range tr.Samples[i] {
+			tr.Samples[i][j] = tracks.Sample{X: math.NaN(), Y: math.NaN(), Lost: true}
+		}
+	}
+	energy := make([]float64, len(tr.Frames))
+	for i := range energy {
+		energy[i] = math.NaN()
+	}
+	in := Input{Marks: m, Tracks: tr, CaptureFPS: 1000, Energy: energy}
+	res, err = Measure(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, lv := range res.Levels {
+		if !math.IsNaN(lv.TwistDeg[20]) || !math.IsNaN(lv.SwayMM[20]) || !math.IsNaN(lv.SettleMM[20]) {
+			t.Errorf("level %d has numbers in a frame with every point lost", lv.Level)
+		}
+	}
+	d = Diagnose(res, in)
+	if d.CollapseRow != 10 || d.Mode != ModeJointOrBase {
+		t.Errorf("collapse row %d mode %s, want 10 and %s", d.CollapseRow, d.Mode, ModeJointOrBase)
+	}
+
+	// A negative or infinite capture rate is refused.
+	if _, err := Measure(Input{Marks: m, Tracks: tr, CaptureFPS: math.Inf(1)}); err == nil {
+		t.Error("infinite capture rate accepted")
+	}
+	// A ragged row is refused with its frame.
+	tr.Samples[3] = tr.Samples[3][:2]
+	if _, err := Measure(Input{Marks: m, Tracks: tr}); err == nil || !strings.Contains(err.Error(), "frame 3") {
+		t.Errorf("ragged row: %v", err)
+	}
+}
+
+// BenchmarkMeasure measures and diagnoses 600 frames of a 15-point tower
+// seen through a pinhole camera.
+func BenchmarkMeasure(b *testing.B) {
+	s := newScene(25)
+	s.frames = 600
+	s.noise = 0.03
+	s.twist = func(l, f int) float64 { return float64(l) * float64(f) / 600 }
+	m, tr := s.build()
+	in := Input{Marks: m, Tracks: tr, CaptureFPS: 1000}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		res, err := Measure(in)
+		if err != nil {
+			b.Fatal(err)
+		}
+		Diagnose(res, in)
+	}
+}
