@@ -7,6 +7,8 @@ import (
 	"path/filepath"
 	"testing"
 
+	"gocv.io/x/gocv"
+
 	"github.com/failframe/failframe/tracking/marks"
 )
 
@@ -66,4 +68,29 @@ func meanStd(xs []float64) (mean, std float64) {
 
 func markPoint(id string, x, y float64) marks.Point {
 	return marks.Point{ID: id, PX: [2]float64{x, y}}
+}
+
+// TestGreyMatchesOpenCV checks the tracker's own BGR-to-grey reading against
+// OpenCV's cvtColor on random colours: they must agree exactly, since the
+// reference patches come from cvtColor.
+func TestGreyMatchesOpenCV(t *testing.T) {
+	bgr := gocv.NewMatWithSize(64, 64, gocv.MatTypeCV8UC3)
+	defer bgr.Close()
+	gocv.RandU(&bgr, gocv.NewScalar(0, 0, 0, 0), gocv.NewScalar(256, 256, 256, 0))
+	grey := gocv.NewMat()
+	defer grey.Close()
+	gocv.CvtColor(bgr, &grey, gocv.ColorBGRToGray)
+	v, err := view(bgr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	row := make([]float64, 64)
+	for y := 0; y < 64; y++ {
+		v.row(row, 0, y)
+		for x := 0; x < 64; x++ {
+			if want := float64(grey.GetUCharAt(y, x)); row[x] != want || v.at(x, y) != want {
+				t.Fatalf("(%d, %d): grey %g / %g, OpenCV %g", x, y, row[x], v.at(x, y), want)
+			}
+		}
+	}
 }

@@ -2,12 +2,48 @@ package tracking
 
 import "math"
 
-// grayImage is a view of an 8-bit single-channel frame: pixel (x, y) is
-// pix[y*stride+x]. It aliases a gocv.Mat's memory; no copy is made.
+// grayImage is a view of an 8-bit frame, grey or BGR(A), read as grey: the
+// pixel (x, y) starts at pix[y*stride+x*ch]. It aliases a gocv.Mat's memory;
+// no copy is made. Colour pixels are turned to grey as OpenCV's cvtColor
+// does for 8-bit BGR: (3735 B + 19235 G + 9798 R + 16384) >> 15.
 type grayImage struct {
 	pix           []uint8
 	width, height int
-	stride        int
+	stride        int // bytes per row
+	ch            int // bytes per pixel: 1, 3 or 4
+}
+
+// at returns the grey value of pixel (x, y).
+func (g grayImage) at(x, y int) float64 {
+	i := y*g.stride + x*g.ch
+	if g.ch == 1 {
+		return float64(g.pix[i])
+	}
+	return float64(greyOf(g.pix[i], g.pix[i+1], g.pix[i+2]))
+}
+
+// greyOf is OpenCV's fixed-point BGR to grey conversion.
+func greyOf(b, g, r uint8) uint8 {
+	return uint8((int(b)*3735 + int(g)*19235 + int(r)*9798 + 1<<14) >> 15)
+}
+
+// row copies n grey values of row y from column x into dst.
+func (g grayImage) row(dst []float64, x, y int) {
+	src := g.pix[y*g.stride+x*g.ch:]
+	switch g.ch {
+	case 1:
+		src = src[:len(dst)]
+		for i, v := range src {
+			dst[i] = float64(v)
+		}
+	default:
+		c := g.ch
+		src = src[:len(dst)*c]
+		for i := range dst {
+			p := src[i*c : i*c+3 : i*c+3]
+			dst[i] = float64(greyOf(p[0], p[1], p[2]))
+		}
+	}
 }
 
 // template is a point's reference patch: the reference frame's pixels on an
@@ -59,7 +95,7 @@ func newTemplate(img grayImage, ax, ay, r int, sigma float64) *template {
 		raw: make([]float64, n), rgx: make([]float64, n), rgy: make([]float64, n), gauss: make([]float64, n),
 		t: make([]float64, n), wt: make([]float64, n), gx: make([]float64, n), gy: make([]float64, n),
 		static: make([]bool, n)}
-	at := func(x, y int) float64 { return float64(img.pix[y*img.stride+x]) }
+	at := img.at
 	k := 0
 	for v := -r; v <= r; v++ {
 		for u := -r; u <= r; u++ {
@@ -198,12 +234,7 @@ func (rf *refiner) sample(img grayImage, r int, cx, cy float64) (mean float64, o
 	rows := side + taps - 1
 	blk := rf.blk[:rows*rows]
 	for j := 0; j < rows; j++ {
-		src := img.pix[(iy-r-2+j)*img.stride+ix-r-2:]
-		src = src[:rows]
-		dst := blk[j*rows : (j+1)*rows]
-		for i, v := range src {
-			dst[i] = float64(v)
-		}
+		img.row(blk[j*rows:(j+1)*rows], ix-r-2, iy-r-2+j)
 	}
 	for j := 0; j < rows; j++ {
 		b := blk[j*rows : (j+1)*rows]
@@ -353,10 +384,7 @@ func (rf *refiner) learnStatic(tp *template, img grayImage, x, y float64) bool {
 	mov := rf.w[:n]
 	st := rf.tmp[:n]
 	for j := 0; j < side; j++ {
-		row := img.pix[(ay-r+j)*img.stride+ax-r:]
-		for i := 0; i < side; i++ {
-			st[j*side+i] = float64(row[i])
-		}
+		img.row(st[j*side:(j+1)*side], ax-r, ay-r+j)
 	}
 	stats := func(v []float64) (mean, norm float64) {
 		var sum, wsum float64

@@ -18,10 +18,18 @@
 // (OpenCV matchTemplate) over a window that widens with speed.
 //
 // Each sample's Quality is the normalised correlation with the reference
-// patch (0..1). A point is lost when the quality falls below
-// Options.MinQuality, or when the frame-to-frame step fails its
-// forward-backward check and no strong match is found; a lost point is only
-// taken up again on a strong match near where it was lost.
+// patch (0..1; the lower of the whole window's and its core's). A result is
+// taken only where an independent estimate agrees (the prediction, or
+// Lucas-Kanade that passed its forward-backward check) and the speed changes
+// smoothly: markers look alike, so a match elsewhere may be another marker.
+// Otherwise, or when the quality falls below Options.MinQuality, the point
+// is lost; a lost point is taken up again only on a strong match near where
+// it was lost, found twice running at the same place.
+//
+// Background that stays still while a point moves (a textured wall behind a
+// thin member) is learned pixel by pixel and weighted out of the point's
+// patch. Frames are read as grey in place; a whole grey frame is made only
+// when a point needs Lucas-Kanade or a search, or moves fast.
 package tracking
 
 import (
@@ -40,13 +48,13 @@ import (
 // DefaultOptions.
 type Options struct {
 	// Window is the side of the square reference patch in pixels, odd;
-	// default 21. Smaller windows follow thin members without picking up
+	// default 17. Smaller windows follow thin members without picking up
 	// the background; larger ones average more noise away.
 	Window int
 	// Sigma is the radius in pixels of the Gaussian that weights the
 	// reference patch, so that the marker counts more than background near
 	// the window's edge (which need not move with the point); 0 weights all
-	// pixels alike; default 5.
+	// pixels alike; default 4.
 	Sigma float64
 	// LKWindow is the side of the Lucas-Kanade window in pixels, odd; default 21.
 	LKWindow int
@@ -64,8 +72,8 @@ type Options struct {
 	// QualityDrop is how far below its running quality a point may fall
 	// before the fast path is distrusted and the slower checks run; default 0.15.
 	QualityDrop float64
-	// ReacquireQuality is the correlation a lost point (or one whose
-	// forward-backward check failed) must reach to be taken up; default 0.85.
+	// ReacquireQuality is the correlation a lost point must reach, twice
+	// running at the same place, to be taken up again; default 0.85.
 	ReacquireQuality float64
 	// MaxFB is the largest forward-backward error in pixels for a
 	// frame-to-frame step to count; default 1.
@@ -93,8 +101,8 @@ type Options struct {
 // DefaultOptions returns the tracker's default settings.
 func DefaultOptions() Options {
 	return Options{
-		Window:           21,
-		Sigma:            5,
+		Window:           17,
+		Sigma:            4,
 		LKWindow:         21,
 		MaxLevels:        5,
 		MaxIter:          30,
@@ -148,6 +156,8 @@ type pointState struct {
 	typ     float64
 	lost    bool
 	lostFor int
+	// steps counts accepted frames.
+	steps int
 	// candX, candY is a strong match found while lost, awaiting confirmation.
 	candX, candY float64
 	candOK       bool
@@ -160,8 +170,11 @@ type Tracker struct {
 	pts      []pointState
 	width    int
 	height   int
-	gray     gocv.Mat
-	prev     gocv.Mat
+	gray     gocv.Mat // the current frame in grey, when grayOK
+	prev     gocv.Mat // the previous frame in grey, when prevOK
+	grayOK   bool
+	prevOK   bool
+	frame    gocv.Mat // the frame being stepped (not owned)
 	rf       refiner
 	crit     gocv.TermCriteria
 	lkIn     gocv.Mat
@@ -204,6 +217,7 @@ func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
 		t.Close()
 		return nil, fmt.Errorf("tracking: reference frame: %w", err)
 	}
+	t.prevOK = true
 	refImg, err := view(t.prev)
 	if err != nil {
 		t.Close()
@@ -278,16 +292,38 @@ func toGray(img gocv.Mat, dst *gocv.Mat) error {
 	return nil
 }
 
-// view exposes a continuous grey Mat's pixels without copying.
+// view exposes a continuous 8-bit grey, BGR or BGRA Mat's pixels as grey,
+// without copying.
 func view(m gocv.Mat) (grayImage, error) {
 	if !m.IsContinuous() {
 		return grayImage{}, errors.New("tracking: frame memory is not continuous")
+	}
+	ch := 0
+	switch m.Type() {
+	case gocv.MatTypeCV8UC1:
+		ch = 1
+	case gocv.MatTypeCV8UC3:
+		ch = 3
+	case gocv.MatTypeCV8UC4:
+		ch = 4
+	default:
+		return grayImage{}, fmt.Errorf("tracking: frame type %v is not 8-bit grey, BGR or BGRA", m.Type())
 	}
 	pix, err := m.DataPtrUint8()
 	if err != nil {
 		return grayImage{}, fmt.Errorf("tracking: %w", err)
 	}
-	return grayImage{pix: pix, width: m.Cols(), height: m.Rows(), stride: m.Cols()}, nil
+	return grayImage{pix: pix, width: m.Cols(), height: m.Rows(), stride: m.Cols() * ch, ch: ch}, nil
+}
+
+// ensureGray converts the current frame to grey, once per frame, for the
+// steps that need a whole grey frame (Lucas-Kanade, correlation search).
+// Frames where every point takes the fast path are never converted whole.
+func (t *Tracker) ensureGray() {
+	if !t.grayOK {
+		toGray(t.frame, &t.gray)
+		t.grayOK = true
+	}
 }
 
 // Step tracks the points into the next frame img (same size and kind as the
@@ -297,22 +333,33 @@ func (t *Tracker) Step(frame int, img gocv.Mat) ([]tracks.Sample, error) {
 	if img.Cols() != t.width || img.Rows() != t.height {
 		return nil, fmt.Errorf("tracking: frame %d is %dx%d, the reference is %dx%d", frame, img.Cols(), img.Rows(), t.width, t.height)
 	}
-	if err := toGray(img, &t.gray); err != nil {
+	cur, err := view(img)
+	if err != nil {
 		return nil, fmt.Errorf("tracking: frame %d: %w", frame, err)
 	}
+	t.frame, t.grayOK = img, false
 	out := make([]tracks.Sample, len(t.pts))
 	if t.opt.PlainLK {
+		t.ensureGray()
 		t.stepPlain(out)
 	} else {
-		cur, err := view(t.gray)
-		if err != nil {
-			return nil, err
-		}
+		fast := false
 		for i := range t.pts {
-			out[i] = t.stepPoint(&t.pts[i], cur)
+			p := &t.pts[i]
+			out[i] = t.stepPoint(p, cur)
+			if !p.lost && math.Hypot(p.vx, p.vy) > 0.5 {
+				fast = true
+			}
+		}
+		// Keep a grey copy for the next frame's Lucas-Kanade while points
+		// move fast; for slow points the fast path does not need it.
+		if fast {
+			t.ensureGray()
 		}
 	}
 	t.gray, t.prev = t.prev, t.gray
+	t.prevOK, t.grayOK = t.grayOK, false
+	t.frame = gocv.Mat{}
 	return out, nil
 }
 
@@ -350,6 +397,7 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 		// A strong match must be found twice running at the same place
 		// before the point counts as found.
 		if p.lostFor <= 10 || p.lostFor%10 == 0 || p.candOK {
+			t.ensureGray()
 			x, y, q, ok := t.search(p, cur, p.cx, p.cy, o.SearchRadius, o.ReacquireQuality)
 			switch {
 			case ok && p.candOK && math.Hypot(x-p.candX, y-p.candY) <= 0.5:
@@ -367,14 +415,18 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 	}
 	px, py := p.cx+p.vx, p.cy+p.vy
 	speed := math.Hypot(p.vx, p.vy)
-	// A result may be taken with ordinary quality only where an independent
-	// estimate agrees: the constant-velocity prediction (within near px) or
-	// Lucas-Kanade from the previous frame (within agree px). Anything else
-	// needs a strong match, so that a point is never carried off onto
-	// another feature.
+	// A result is taken only where an independent estimate agrees: the
+	// constant-velocity prediction (within near px) or Lucas-Kanade from
+	// the previous frame (within agree px); and only if the point's speed
+	// changes by less than maxAccel px per frame. Markers look alike, so
+	// even a strong match elsewhere may be another marker: a point is never
+	// carried off onto another feature, it is reported lost instead.
 	near := math.Max(1.5, r/4)
 	const agree = 1.0
 	dist := func(x0, y0, x1, y1 float64) float64 { return math.Hypot(x1-x0, y1-y0) }
+	smooth := func(x, y float64) bool {
+		return dist(x-p.cx, y-p.cy, p.vx, p.vy) <= 3+0.5*speed
+	}
 
 	// Fast path: align the reference patch starting at the prediction.
 	res := t.rf.refine(p.tp, cur, px, py, o.MaxIter, o.Epsilon, r)
@@ -382,24 +434,25 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 		(p.typ == 0 || res.q() >= p.typ-o.QualityDrop) &&
 		dist(res.x, res.y, px, py) <= near {
 		p.accept(res.x, res.y, res.q())
-		if !o.keepBackground {
-			t.rf.learnStatic(p.tp, cur, res.x, res.y)
-		}
+		t.learn(p, cur, res.x, res.y)
 		return p.sample(res.q())
 	}
 	best := res.q()
 
-	// Frame-to-frame Lucas-Kanade with a forward-backward check.
-	lx, ly, fb, lkOK := t.lkStep(p.cx, p.cy, px, py, speed)
-	lkOK = lkOK && fb <= o.MaxFB
+	// Frame-to-frame Lucas-Kanade with a forward-backward check, when the
+	// previous frame is at hand in grey.
+	t.ensureGray()
+	var lx, ly, fb float64
+	lkOK := false
+	if t.prevOK {
+		lx, ly, fb, lkOK = t.lkStep(p.cx, p.cy, px, py, speed)
+		lkOK = lkOK && fb <= o.MaxFB && smooth(lx, ly)
+	}
 	if lkOK {
 		res2 := t.rf.refine(p.tp, cur, lx, ly, o.MaxIter, o.Epsilon, r)
-		if res2.ok && (res2.q() >= o.ReacquireQuality ||
-			res2.q() >= o.MinQuality && dist(res2.x, res2.y, lx, ly) <= agree) {
+		if res2.ok && res2.q() >= o.MinQuality && dist(res2.x, res2.y, lx, ly) <= agree {
 			p.accept(res2.x, res2.y, res2.q())
-			if !o.keepBackground {
-				t.rf.learnStatic(p.tp, cur, res2.x, res2.y)
-			}
+			t.learn(p, cur, res2.x, res2.y)
 			return p.sample(res2.q())
 		}
 		best = math.Max(best, res2.q())
@@ -408,16 +461,23 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 	// Correlation search around the prediction, wider for faster points.
 	rad := min(o.MaxSearchRadius, max(o.SearchRadius, int(math.Ceil(3*speed))))
 	x, y, q, ok := t.search(p, cur, px, py, rad, o.MinQuality)
-	if ok {
-		consistent := dist(x, y, px, py) <= near || lkOK && dist(x, y, lx, ly) <= agree
-		if q >= o.ReacquireQuality || consistent {
-			p.accept(x, y, q)
-			return p.sample(q)
-		}
+	if ok && smooth(x, y) && (dist(x, y, px, py) <= near || lkOK && dist(x, y, lx, ly) <= agree) {
+		p.accept(x, y, q)
+		return p.sample(q)
 	}
 	best = math.Max(best, q)
 	p.lost, p.lostFor, p.candOK = true, 0, false
 	return p.sample(best)
+}
+
+// learn gathers still-background evidence for p every few frames (the
+// evidence needs motion, which builds up over frames anyway).
+func (t *Tracker) learn(p *pointState, cur grayImage, x, y float64) {
+	p.steps++
+	if t.opt.keepBackground || p.steps%4 != 0 {
+		return
+	}
+	t.rf.learnStatic(p.tp, cur, x, y)
 }
 
 // levelsFor picks the pyramid depth for an expected motion in pixels: the
