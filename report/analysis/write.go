@@ -223,23 +223,35 @@ func (w *writer) plots() error {
 			}
 		}
 	}
+	// Motion plots stop shortly after the collapse: what follows is the
+	// tower falling, and its scale would flatten the build-up.
+	cut := len(times)
+	if c := w.diag.CollapseRow; c >= 0 {
+		cut = min(len(times), c+max(5, len(times)/50)+1)
+	}
+	ct := times[:cut]
+	head := func(y []float64) []float64 { return y[:min(cut, len(y))] }
+	after := ""
+	if cut < len(times) {
+		after = ", up to just after the collapse"
+	}
 	var tw, sw []plots.Series
 	for _, l := range w.meas.Levels {
 		name := fmt.Sprintf("level %d", l.Level)
 		if l.Observable {
-			tw = append(tw, plots.Series{Name: name, X: times, Y: l.TwistDeg})
+			tw = append(tw, plots.Series{Name: name, X: ct[:len(head(l.TwistDeg))], Y: head(l.TwistDeg)})
 		}
-		sw = append(sw, plots.Series{Name: name, X: times, Y: l.SwayMM})
+		sw = append(sw, plots.Series{Name: name, X: ct[:len(head(l.SwayMM))], Y: head(l.SwayMM)})
 	}
 	if len(tw) > 0 {
 		if err := w.plot(plots.Chart{Title: "Twist per level", XLabel: "real time (s)", YLabel: "twist (degrees, counter-clockwise from above)", Series: tw, Marks: evMarks},
-			"twist", "Twist of each level whose twist this camera can see"); err != nil {
+			"twist", "Twist of each level whose twist this camera can see"+after); err != nil {
 			return err
 		}
 	}
 	if len(sw) > 0 {
 		if err := w.plot(plots.Chart{Title: "Sway per level", XLabel: "real time (s)", YLabel: "sway (mm, to the image right)", Series: sw, Marks: evMarks},
-			"sway", "Sideways sway of each level's centre"); err != nil {
+			"sway", "Sideways sway of each level's centre"+after); err != nil {
 			return err
 		}
 	}
@@ -248,15 +260,16 @@ func (w *writer) plots() error {
 		if m.Kind != marks.KindBrace && m.ID != w.res.FirstMember {
 			continue
 		}
-		y := make([]float64, len(m.BowFrac))
-		for i, v := range m.BowFrac {
+		bf := head(m.BowFrac)
+		y := make([]float64, len(bf))
+		for i, v := range bf {
 			y[i] = 100 * v
 		}
-		bow = append(bow, plots.Series{Name: m.ID, X: times, Y: y})
+		bow = append(bow, plots.Series{Name: m.ID, X: ct[:len(y)], Y: y})
 	}
 	if len(bow) > 0 {
 		if err := w.plot(plots.Chart{Title: "Bow of each brace", XLabel: "real time (s)", YLabel: "bow (% of length)", Series: bow, Marks: w.eventMarks("onset", "break")},
-			"bow", "Bow of each brace (sideways deflection of its middle as a share of its length) with member onsets and breaks marked"); err != nil {
+			"bow", "Bow of each brace (sideways deflection of its middle as a share of its length) with member onsets and breaks marked"+after); err != nil {
 			return err
 		}
 	}
