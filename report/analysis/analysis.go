@@ -87,6 +87,7 @@ type Progress struct {
 // log, a range or the report folder.
 type InputError struct{ Err error }
 
+// Error returns the underlying problem's message.
 func (e *InputError) Error() string { return e.Err.Error() }
 
 // Unwrap returns the underlying problem.

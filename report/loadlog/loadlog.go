@@ -90,6 +90,7 @@ type Warning struct {
 	Msg string
 }
 
+// String formats the warning with its line number.
 func (w Warning) String() string {
 	if w.Line > 0 {
 		return fmt.Sprintf("line %d: %s", w.Line, w.Msg)
@@ -107,6 +108,7 @@ type ParseError struct {
 	Err error
 }
 
+// Error names the file and the line.
 func (e *ParseError) Error() string {
 	if e.Line > 0 {
 		return fmt.Sprintf("load log %s line %d: %v", e.Path, e.Line, e.Err)
