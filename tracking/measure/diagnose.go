@@ -829,6 +829,9 @@ func adviceFor(mode string, first *Member, res *Result) []string {
 		a = append(a, "The legs held longer than the bracing: the tower is limited by its longest compression braces, so material may come off the legs and go into the braces.")
 	case ModeJointOrBase:
 		a = append(a, "A member let go without bowing first: a glue joint or the base failed before any member buckled. Give the joints more glue area (gussets or notched joints), let glue cure fully, and check the tower sits flat and the load is centred.")
+		if legsOnlyAtLevels(res) {
+			a = append(a, "The legs were marked only at braced levels, so a leg buckling between two braces would not show: next time mark each leg at mid-panel too.")
+		}
 	default:
 		a = append(a, "The clip did not show how the tower failed: mark points on two faces (legs at every level and the middle of long braces), film from a camera azimuth of 15-35 degrees off a face, and keep the whole tower in frame.")
 	}
@@ -865,4 +868,17 @@ func crossed(m *Member, res *Result) bool {
 		}
 	}
 	return false
+}
+
+// legsOnlyAtLevels reports whether every leg member's interior points sit
+// at braced levels (so buckling between braces cannot be seen).
+func legsOnlyAtLevels(res *Result) bool {
+	seen := false
+	for _, l := range res.Legs {
+		seen = true
+		if len(l.HeightsMM) > 0 && l.midPanel {
+			return false
+		}
+	}
+	return seen
 }

@@ -191,6 +191,7 @@ func TestAdviceByMode(t *testing.T) {
 		{ModeBraceBuckling, diag, "X crossing"},
 		{ModeBraceBuckling, xpair, "deeper section"},
 		{ModeJointOrBase, diag, "glue"},
+		{ModeJointOrBase, &Result{Members: diag.Members, Legs: []Leg{{Leg: "A", HeightsMM: []float64{0, 70, 140}}}}, "mid-panel"},
 		{ModeUndetermined, diag, "15-35 degrees"},
 	} {
 		a := strings.Join(adviceFor(tc.mode, &tc.res.Members[0], tc.res), " ")

@@ -127,6 +127,8 @@ type Leg struct {
 	Shape string
 	// Note states the shape's meaning and the Euler relation it rests on.
 	Note string
+
+	midPanel bool // some point sits between braced levels
 }
 
 // point is a marked point with its derived geometry.

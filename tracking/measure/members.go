@@ -207,6 +207,9 @@ func (g *geom) legs() []Leg {
 				tpos[i] = (p.height - a.height) / (b.height - a.height)
 			}
 			L.HeightsMM = append(L.HeightsMM, tpos[i]*L.LengthMM)
+			if p.level < 0 {
+				L.midPanel = true
+			}
 			refOff[i] = perpOffset(a.ref, b.ref, p.ref)
 			scale[i] = g.offsetScale(a, b, p, false)
 		}
