@@ -105,7 +105,7 @@ to failure.` + exitHelp,
 			if c.LoadOptions.TimeUnit != "" {
 				u, ok := loadlog.NormalizeTimeUnit(c.LoadOptions.TimeUnit)
 				if !ok {
-					return &FlagError{Err: fmt.Errorf("--load-time-unit %q: want s, ms or index", c.LoadOptions.TimeUnit)}
+					return &FlagError{Err: fmt.Errorf("--load-time-unit %q: want s, ms, us or index", c.LoadOptions.TimeUnit)}
 				}
 				c.LoadOptions.TimeUnit = u
 			}
@@ -136,7 +136,7 @@ to failure.` + exitHelp,
 	f.StringVar(&c.Out, "out", "", "report folder to write (required)")
 	f.StringVar(&c.Load, "load", "", "load-cell log (CSV or whitespace-separated)")
 	f.StringVar(&c.LoadOptions.Unit, "load-unit", "", "unit of the log's load column: g, kg, N or lbf (default: from the header, else g)")
-	f.StringVar(&c.LoadOptions.TimeUnit, "load-time-unit", "", "unit of the log's time column: s, ms or index (default: from the header or the values)")
+	f.StringVar(&c.LoadOptions.TimeUnit, "load-time-unit", "", "unit of the log's time column: s, ms, us or index (default: from the header or the values)")
 	f.Float64Var(&c.LoadOptions.RateHz, "load-rate", 0, "sampling rate of the log in Hz, for a sample-index time column or a log without one")
 	f.Float64Var(&opts.loadOffset, "load-offset", 0, "seconds to add to logger time to get video time (default: found automatically)")
 	f.StringVar(&opts.sync, "sync", "", "FRAME@LOGTIME: a frame matched to a logger time in seconds, e.g. 412@35.18")

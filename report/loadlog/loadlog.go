@@ -21,6 +21,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 )
 
 // MaxPlausibleG is the largest load, in grams, accepted from a log of a model
@@ -43,7 +44,7 @@ const maxBackwards = 3
 type Options struct {
 	// Unit is the load unit: g, kg, N or lbf. Default "": from the header, else grams.
 	Unit string
-	// TimeUnit is the time column's unit: s, ms or index. Default "": from the
+	// TimeUnit is the time column's unit: s, ms, us or index. Default "": from the
 	// header, else guessed from the values.
 	TimeUnit string
 	// RateHz is the sampling rate for a sample-index time column or a log with
@@ -68,7 +69,7 @@ type Log struct {
 	Lines []int
 	// PeriodS is the median sampling period, seconds.
 	PeriodS float64
-	// TimeUnit is the time unit used: s, ms or index.
+	// TimeUnit is the time unit used: s, ms, us or index.
 	TimeUnit string
 	// LoadUnit is the load unit used: g, kg, N or lbf.
 	LoadUnit string
@@ -139,7 +140,7 @@ func Parse(path string, r io.Reader, opt Options) (*Log, []Warning, error) {
 	if opt.TimeUnit != "" {
 		u, ok := NormalizeTimeUnit(opt.TimeUnit)
 		if !ok {
-			return fail(0, "unknown time unit %q (want s, ms or index)", opt.TimeUnit)
+			return fail(0, "unknown time unit %q (want s, ms, us or index)", opt.TimeUnit)
 		}
 		opt.TimeUnit = u
 	}
@@ -327,6 +328,8 @@ func Parse(path string, r io.Reader, opt Options) (*Log, []Warning, error) {
 		timeScale = 1
 	case TimeMilliseconds:
 		timeScale = 1e-3
+	case TimeMicroseconds:
+		timeScale = 1e-6
 	case TimeIndex:
 		if opt.RateHz <= 0 {
 			return fail(rows[0].line, "time is a sample index; give the sampling rate (--load-rate)")
@@ -581,10 +584,22 @@ func parseNumber(s string, decimalComma bool) (float64, string) {
 	return v, ""
 }
 
-// parseTimeValue parses a number or a clock time h:mm:ss.sss (as seconds).
+// dateLayouts are the date-and-time stamps accepted in a time column.
+var dateLayouts = []string{time.RFC3339Nano, "2006-01-02T15:04:05.999999999", "2006-01-02 15:04:05.999999999", "2006/01/02 15:04:05.999999999"}
+
+// parseTimeValue parses a number, a clock time h:mm:ss.sss (as seconds) or a
+// date and time such as 2026-03-14T10:00:00.125 (as Unix seconds).
 func parseTimeValue(s string, decimalComma bool) (float64, string) {
 	if !strings.Contains(s, ":") {
 		return parseNumber(s, decimalComma)
+	}
+	if len(s) >= 19 && (s[4] == '-' || s[4] == '/') {
+		for _, l := range dateLayouts {
+			if t, err := time.Parse(l, s); err == nil {
+				return float64(t.Unix()) + float64(t.Nanosecond())/1e9, ""
+			}
+		}
+		return 0, fmt.Sprintf("%q is not a date and time", clip(s))
 	}
 	parts := strings.Split(s, ":")
 	if len(parts) > 3 {

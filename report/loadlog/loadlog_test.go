@@ -143,6 +143,19 @@ func TestParseLayouts(t *testing.T) {
 			unit: "g", timeUnit: "s",
 		},
 		{
+			// Unix time of 2026-03-14T10:00:00Z is 1773482400 s (checked with Python's datetime).
+			name:  "date and time stamps",
+			in:    "Timestamp,Weight (kg)\n2026-03-14T10:00:00.000Z,1.5\n2026-03-14T10:00:00.100Z,1.6\n2026-03-14T10:00:00.200Z,1.7\n",
+			times: []float64{1773482400, 1773482400.1, 1773482400.2}, loads: []float64{1500, 1600, 1700},
+			unit: "kg", timeUnit: "s",
+		},
+		{
+			name:  "microseconds",
+			in:    "time_us load_g\n0 1\n12500 2\n25000 3\n",
+			times: []float64{0, 0.0125, 0.025}, loads: []float64{1, 2, 3},
+			unit: "g", timeUnit: "us",
+		},
+		{
 			name:  "crlf and quotes",
 			in:    "\"time_ms\",\"load_g\"\r\n\"0\",\"1\"\r\n\"5\",\"2\"\r\n",
 			times: []float64{0, 0.005}, loads: []float64{1, 2},

@@ -24,6 +24,7 @@ const (
 const (
 	TimeSeconds      = "s"
 	TimeMilliseconds = "ms"
+	TimeMicroseconds = "us"
 	TimeIndex        = "index"
 )
 
@@ -67,6 +68,8 @@ func NormalizeTimeUnit(s string) (unit string, ok bool) {
 		return TimeSeconds, true
 	case "ms", "msec", "millis", "millisecond", "milliseconds":
 		return TimeMilliseconds, true
+	case "us", "µs", "usec", "micros", "microsecond", "microseconds":
+		return TimeMicroseconds, true
 	case "index", "sample", "samples", "idx", "n", "no", "count":
 		return TimeIndex, true
 	}
