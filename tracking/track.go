@@ -28,11 +28,17 @@ type Hooks struct {
 	// Progress, when set, is called after each frame with the frames done and
 	// the total (0 when the total is not known).
 	Progress func(done, total int)
+	// OnFrameError, when set, is called for a frame that cannot be decoded:
+	// returning nil skips the frame (it gets no row; tracking goes on from
+	// the next), returning an error stops tracking with it. When nil, a bad
+	// frame stops tracking with an error naming it.
+	OnFrameError func(err *capture.FrameError) error
 }
 
 // Track follows the points of m through src over rng: it reads the reference
 // frame m.ReferenceFrame, then every frame of the range once. A frame that
-// cannot be decoded stops tracking with an error naming it.
+// cannot be decoded stops tracking with an error naming it, unless
+// hooks.OnFrameError lets it be skipped.
 func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hooks) (*tracks.Tracks, error) {
 	info := src.Info()
 	if rng.From < 0 {
@@ -91,6 +97,16 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		frame, err := src.Read(&img)
 		if errors.Is(err, io.EOF) {
 			break
+		}
+		var fe *capture.FrameError
+		if errors.As(err, &fe) && hooks.OnFrameError != nil {
+			if rng.To >= 0 && fe.Frame > rng.To {
+				break
+			}
+			if herr := hooks.OnFrameError(fe); herr != nil {
+				return nil, herr
+			}
+			continue
 		}
 		if err != nil {
 			return nil, fmt.Errorf("track %s: %w", info.Path, err)

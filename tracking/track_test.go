@@ -1,10 +1,12 @@
 package tracking
 
 import (
+	"bytes"
 	"errors"
 	"image"
 	"math"
 	"math/rand/v2"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -173,5 +175,68 @@ func TestStepChecksFrames(t *testing.T) {
 		if !errors.As(err, &me) || me.Line != 9 || !strings.Contains(err.Error(), c.msg) || !strings.Contains(err.Error(), "point edge") {
 			t.Errorf("%s: error %v", c.msg, err)
 		}
+	}
+}
+
+// TestTrackDamagedFrame damages one frame of an MJPG clip (its JPEG header
+// zeroed): by default tracking stops with an error naming the frame; with
+// OnFrameError the frame is skipped and tracking goes on.
+func TestTrackDamagedFrame(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "clip.avi")
+	writeShiftClip(t, path, 20)
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The 13th "00dc" chunk tag (one sits in the header list) holds frame
+	// 11 or so; zero its JPEG start.
+	off := -1
+	for i, k := 0, 0; k < 13; k++ {
+		j := bytes.Index(data[i:], []byte("00dc"))
+		if j < 0 {
+			t.Fatal("no 13th frame chunk")
+		}
+		off, i = i+j, i+j+4
+	}
+	for k := off + 8; k < off+408 && k < len(data); k++ {
+		data[k] = 0
+	}
+	bad := filepath.Join(dir, "bad.avi")
+	if err := os.WriteFile(bad, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	m := &marks.File{Points: []marks.Point{{ID: "p", PX: [2]float64{60, 50}}}}
+	open := func() capture.Source {
+		src, err := capture.Open(bad, capture.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return src
+	}
+	src := open()
+	_, err = Track(src, m, DefaultOptions(), Range{To: -1}, Hooks{})
+	src.Close()
+	var fe *capture.FrameError
+	if !errors.As(err, &fe) || !strings.Contains(err.Error(), "frame") {
+		t.Fatalf("error %v, want a *capture.FrameError naming the frame", err)
+	}
+	src = open()
+	defer src.Close()
+	var skipped []int
+	tr, err := Track(src, m, DefaultOptions(), Range{To: -1}, Hooks{OnFrameError: func(e *capture.FrameError) error {
+		skipped = append(skipped, e.Frame)
+		return nil
+	}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(skipped) != 1 || skipped[0] != fe.Frame || len(tr.Frames) != 19 || tr.Row(fe.Frame) >= 0 {
+		t.Fatalf("skipped %v (first error at %d), %d rows %v", skipped, fe.Frame, len(tr.Frames), tr.Frames)
+	}
+	// Tracking goes on past the gap.
+	last := tr.Samples[len(tr.Samples)-1][0]
+	if last.Lost || math.Abs(last.X-(60+0.25*19)) > 0.1 || math.Abs(last.Y-(50+0.5*19)) > 0.1 {
+		t.Errorf("frame 19: %+v, want (%.2f, %.2f)", last, 60+0.25*19, 50+0.5*19)
 	}
 }
