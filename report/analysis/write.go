@@ -428,8 +428,10 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
 	if we-ws > maxWindowFrames {
 		ws = we - maxWindowFrames
 	}
+	// A little after the collapse, nothing before the onset: reading starts
+	// at the keyframe before ws, so every frame before it costs decoding.
 	pad := max(5, (we-ws)/10)
-	ws, we = max(first, ws-pad), min(last, we+pad)
+	ws, we = max(first, ws), min(last, we+pad)
 	var sheet []int
 	n := min(12, we-ws+1)
 	for i := 0; i < n; i++ {

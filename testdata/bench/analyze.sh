@@ -58,7 +58,7 @@ OUT=$DIR/report
 TIMEV=$DIR/time.txt
 t2=$(date +%s.%N)
 /usr/bin/time -v -o "$TIMEV" "$BIN" analyze "$CLIP/tower.mp4" --marks "$CLIP/marks.yaml" \
-	--load "$CLIP/load.csv" --mass-g 21.4 --out "$OUT" --force --quiet >/dev/null
+	--load "$CLIP/load.csv" --mass-g 21.4 --out "$OUT" --force --quiet >/dev/null 2>"$DIR/analyze.err"
 t3=$(date +%s.%N)
 
 rss_kb=$(awk -F: '/Maximum resident set size/ {gsub(/ /, "", $2); print $2}' "$TIMEV")
