@@ -318,26 +318,38 @@ func TestBraceBreaksAndFliesOff(t *testing.T) {
 }
 
 // TestPartialOcclusion slides a flat occluder over part of a marker's
-// window: the point must stay within 0.2 px of the truth or be reported lost,
-// and be tracked again once the occluder has passed.
+// window. While a strip of about a sixth of the window is hidden the point
+// must be tracked within 0.2 px; hidden more, it must stay within 0.2 px or
+// be reported lost, and be tracked again once the occluder has passed.
 func TestPartialOcclusion(t *testing.T) {
-	sc, probes := speckleScene(51, slowSway(1.5, 1, 150, 0))
-	sc.noise = 2
-	// probe s11 sits at (120.37, 120.81); the occluder's edge sweeps from
-	// the right to 4 px past its centre and back.
-	sc.occlude = func(i int) image.Rectangle {
-		if i < 30 || i > 90 {
-			return image.Rectangle{}
-		}
-		edge := 140 - int(24*math.Sin(math.Pi*float64(i-30)/60))
-		return image.Rect(edge, 90, 240, 150)
-	}
-	sc.occludeV = 200
-	st := runSceneCheck(t, sc, probes, 130, DefaultOptions(), 0.2)
-	for j, p := range probes {
-		t.Logf("%s: lost %d frames, RMS while tracked %.4f px, worst %.4f px", p.id, st[j].lost, st[j].rms, st[j].max)
-		if st[j].lastLost > 100 {
-			t.Errorf("%s still lost at frame %d, after the occluder left", p.id, st[j].lastLost)
-		}
+	for _, c := range []struct {
+		name  string
+		reach int // how far left of its start the occluder's edge goes, px
+		light bool
+	}{{"light", 14, true}, {"heavy", 24, false}} {
+		t.Run(c.name, func(t *testing.T) {
+			sc, probes := speckleScene(51, slowSway(1.5, 1, 150, 0))
+			sc.noise = 2
+			// Probe s11 sits near (120.4, 120.8); the occluder's edge sweeps
+			// in from x = 140 and back.
+			sc.occlude = func(i int) image.Rectangle {
+				if i < 30 || i > 90 {
+					return image.Rectangle{}
+				}
+				edge := 140 - int(float64(c.reach)*math.Sin(math.Pi*float64(i-30)/60))
+				return image.Rect(edge, 90, 240, 150)
+			}
+			sc.occludeV = 200
+			st := runSceneCheck(t, sc, probes, 130, DefaultOptions(), 0.2)
+			for j, p := range probes {
+				t.Logf("%s: lost %d frames, RMS while tracked %.4f px, worst %.4f px", p.id, st[j].lost, st[j].rms, st[j].max)
+				if st[j].lastLost > 100 {
+					t.Errorf("%s still lost at frame %d, after the occluder left", p.id, st[j].lastLost)
+				}
+				if c.light && p.id == "s11" && st[j].lost > 0 {
+					t.Errorf("%s lost in %d frames with a sixth of its window hidden", p.id, st[j].lost)
+				}
+			}
+		})
 	}
 }

@@ -1,6 +1,9 @@
 package tracking
 
-import "math"
+import (
+	"math"
+	"sort"
+)
 
 // grayImage is a view of an 8-bit frame, grey or BGR(A), read as grey: the
 // pixel (x, y) starts at pix[y*stride+x*ch]. It aliases a gocv.Mat's memory;
@@ -178,7 +181,9 @@ func (tp *template) weigh() {
 type refiner struct {
 	tmp []float64 // horizontal pass, (2r+1+taps-1) rows x (2r+1)
 	w   []float64 // resampled patch
-	blk []float64 // frame block as floats
+	// robust refinement's weights, residuals and sorted absolute residuals
+	rw, res, abs []float64
+	blk          []float64 // frame block as floats
 }
 
 func (rf *refiner) ensure(r int) {
@@ -456,4 +461,118 @@ func (rf *refiner) learnStatic(tp *template, img grayImage, x, y float64) bool {
 		return false
 	}
 	return true
+}
+
+// robustResult is the outcome of a robust refinement.
+type robustResult struct {
+	x, y      float64
+	zncc      float64 // correlation over the pixels kept
+	kept      float64 // weight share of the pixels kept, 0..1
+	converged bool
+	ok        bool
+}
+
+// q is the robust match quality: the correlation over the pixels kept times
+// their share, so a half-hidden marker scores at most one half.
+func (r robustResult) q() float64 { return r.zncc * r.kept }
+
+// refineRobust aligns tp to img like refine, but weights each pixel by
+// Tukey's biweight of its residual (scale from the median absolute
+// residual; Holland & Welsch, "Robust regression using iteratively
+// reweighted least-squares", Commun. Statist. A6:813-827, 1977), so that a
+// part of the window hidden by something in front does not pull the point.
+// Gain and offset are estimated from the kept pixels only. It is slower
+// than refine and runs only when refine does not land cleanly.
+func (rf *refiner) refineRobust(tp *template, img grayImage, x, y float64, maxIter int, eps, maxMove float64) robustResult {
+	rf.ensure(tp.r)
+	n := tp.n
+	if len(rf.rw) < n {
+		rf.rw = make([]float64, n)
+		rf.res = make([]float64, n)
+		rf.abs = make([]float64, n)
+	}
+	om := rf.rw[:n]
+	for i := range om {
+		om[i] = 1
+	}
+	x0, y0 := x, y
+	out := robustResult{x: x, y: y}
+	for it := 0; it < maxIter; it++ {
+		if _, ok := rf.sample(img, tp.r, x, y); !ok {
+			return out
+		}
+		w := rf.w[:n]
+		// Weighted statistics over the kept pixels.
+		var sw, mt, mw float64
+		for i, g := range tp.gauss {
+			k := g * om[i]
+			sw += k
+			mt += k * tp.raw[i]
+			mw += k * w[i]
+		}
+		if sw == 0 {
+			return out
+		}
+		mt /= sw
+		mw /= sw
+		var st, sww, cross float64
+		for i, g := range tp.gauss {
+			k := g * om[i]
+			a, b := tp.raw[i]-mt, w[i]-mw
+			st += k * a * a
+			sww += k * b * b
+			cross += k * a * b
+		}
+		if st == 0 || sww == 0 {
+			return out
+		}
+		scale := math.Sqrt(st / sww)
+		res := rf.res[:n]
+		abs := rf.abs[:n]
+		for i := range res {
+			res[i] = (w[i]-mw)*scale - (tp.raw[i] - mt)
+			abs[i] = math.Abs(res[i])
+		}
+		sort.Float64s(abs)
+		sigma := 1.4826 * abs[n/2]
+		c := 4.685 * math.Max(sigma, 1)
+		var hxx, hxy, hyy, bx, by, kept, total float64
+		for i, g := range tp.gauss {
+			u := res[i] / c
+			om[i] = 0
+			if u*u < 1 {
+				om[i] = (1 - u*u) * (1 - u*u)
+			}
+			k := g * om[i]
+			gx, gy := tp.rgx[i], tp.rgy[i]
+			hxx += k * gx * gx
+			hxy += k * gx * gy
+			hyy += k * gy * gy
+			bx += k * gx * res[i]
+			by += k * gy * res[i]
+			kept += k
+			total += g
+		}
+		det := hxx*hyy - hxy*hxy
+		if det <= 0 {
+			return out
+		}
+		dx := (hyy*bx - hxy*by) / det
+		dy := (hxx*by - hxy*bx) / det
+		out.x, out.y, out.ok = x, y, true
+		out.zncc = cross / math.Sqrt(st*sww)
+		out.kept = kept / total
+		x -= dx
+		y -= dy
+		if math.Hypot(x-x0, y-y0) > maxMove {
+			out.ok = false
+			return out
+		}
+		if dx*dx+dy*dy < eps*eps {
+			out.converged = true
+			break
+		}
+	}
+	out.x, out.y = x, y
+	return out
 }

@@ -442,6 +442,18 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 	}
 	best := res.q()
 
+	// Part of the window hidden? A robust alignment from the prediction
+	// leaves out what does not fit; what it keeps must match closely
+	// (correlation 0.9), and its share times that correlation is the
+	// quality.
+	rob := t.rf.refineRobust(p.tp, cur, px, py, o.MaxIter, o.Epsilon, r)
+	if rob.ok && rob.converged && rob.q() >= o.MinQuality && rob.zncc >= 0.9 &&
+		dist(rob.x, rob.y, px, py) <= near && smooth(rob.x, rob.y) {
+		p.accept(rob.x, rob.y, rob.q())
+		return p.sample(rob.q())
+	}
+	best = math.Max(best, rob.q())
+
 	// Frame-to-frame Lucas-Kanade with a forward-backward check, when the
 	// previous frame is at hand in grey.
 	t.ensureGray()
