@@ -22,6 +22,7 @@ import (
 	"github.com/failframe/failframe/capture"
 	"github.com/failframe/failframe/report"
 	"github.com/failframe/failframe/report/align"
+	"github.com/failframe/failframe/report/evidence"
 	"github.com/failframe/failframe/report/loadlog"
 	"github.com/failframe/failframe/tracking"
 	"github.com/failframe/failframe/tracking/marks"
@@ -330,24 +331,42 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 		}
 	}()
 	w := &writer{dir: tmp, res: res, m: m, tr: tr, meas: meas, diag: diag, tb: tb, log: log, al: al, energy: energy}
-	if err := w.csvs(); err != nil {
-		return nil, err
-	}
-	if err := w.plots(); err != nil {
-		return nil, err
-	}
-	prog.stage("drawing evidence frames")
+	// The evidence frames are read from the clip again while the CSV files
+	// and plots are written: the two share nothing but read-only results.
+	prog.stage("drawing evidence frames and plots")
 	have := map[int]gocv.Mat{}
 	if !refFrame.Empty() {
 		have[m.ReferenceFrame] = refFrame
 	}
-	if err := w.evidence(src, have); err != nil {
-		if errors.As(err, new(*capture.FrameError)) {
-			warn("evidence frames incomplete: %v", err)
-			res.Warnings = append(res.Warnings[:0:0], warnings...)
-		} else {
-			return nil, err
+	type evResult struct {
+		out []evidence.Written
+		err error
+	}
+	evDone := make(chan evResult, 1)
+	go func() {
+		out, err := w.evidence(src, have)
+		evDone <- evResult{out, err}
+	}()
+	err = w.csvs()
+	if err == nil {
+		err = w.plots()
+	}
+	ev := <-evDone
+	if err != nil {
+		return nil, err
+	}
+	for _, o := range ev.out {
+		w.files = append(w.files, o.File)
+		if o.Caption != "" {
+			res.Figures = append(res.Figures, report.Figure{File: o.File, Kind: "evidence", Caption: o.Caption})
 		}
+	}
+	if ev.err != nil {
+		if !errors.As(ev.err, new(*capture.FrameError)) {
+			return nil, ev.err
+		}
+		warn("evidence frames incomplete: %v", ev.err)
+		res.Warnings = append(res.Warnings[:0:0], warnings...)
 	}
 	res.Files = append(w.files, report.ResultFile, report.HTMLFile)
 	sort.Strings(res.Files)

@@ -376,7 +376,9 @@ func (w *writer) eventFrame(kind, member string) int {
 	return -1
 }
 
-func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
+// evidence renders the evidence frames; it only reads w, so it may run
+// beside csvs and plots.
+func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) ([]evidence.Written, error) {
 	first, last := w.tr.Frames[0], w.tr.Frames[w.tr.Len()-1]
 	fm := w.res.FirstMember
 	onset := w.eventFrame("onset", fm)
@@ -467,14 +469,7 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) error {
 	}
 	ov := &evidence.Overlay{Marks: w.m, Tracks: w.tr, BowFrac: bow, FirstMember: fm}
 	req := evidence.Request{Shots: shots, Sheet: sheet, ClipFrom: cs, ClipTo: we, ClipFPS: 30, Stamp: stamp, Have: have}
-	out, err := evidence.Render(src, ov, req, filepath.Join(w.dir, "evidence"))
-	for _, o := range out {
-		w.files = append(w.files, o.File)
-		if o.Caption != "" {
-			w.res.Figures = append(w.res.Figures, report.Figure{File: o.File, Kind: "evidence", Caption: o.Caption})
-		}
-	}
-	return err
+	return evidence.Render(src, ov, req, filepath.Join(w.dir, "evidence"))
 }
 
 // maxWindowFrames bounds the failure window of the contact sheet.
