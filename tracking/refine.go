@@ -71,6 +71,8 @@ type template struct {
 	t      []float64 // zero-mean (weighted) reference values
 	norm   float64   // sqrt(sum wt t^2)
 	gx, gy []float64 // weighted gradients of t: wt * dt/dx, wt * dt/dy
+	// sums of gx, gy and of their products with t
+	sgx, sgy, sgxt, sgyt float64
 	// inverse of the 2x2 Gauss-Newton matrix sum(wt grad grad^T)
 	hxx, hxy, hyy float64
 	// minEig is the smaller eigenvalue of the weighted structure matrix
@@ -163,6 +165,13 @@ func (tp *template) weigh() {
 		tp.gy[i] = w * tp.rgy[i]
 	}
 	tp.norm = math.Sqrt(ss)
+	tp.sgx, tp.sgy, tp.sgxt, tp.sgyt = 0, 0, 0, 0
+	for i := range tp.t {
+		tp.sgx += tp.gx[i]
+		tp.sgy += tp.gy[i]
+		tp.sgxt += tp.gx[i] * tp.t[i]
+		tp.sgyt += tp.gy[i] * tp.t[i]
+	}
 	tp.hxx, tp.hxy, tp.hyy = 0, 0, 0
 	det := sxx*syy - sxy*sxy
 	if det > 0 {
@@ -181,6 +190,10 @@ func (tp *template) weigh() {
 type refiner struct {
 	tmp []float64 // horizontal pass, (2r+1+taps-1) rows x (2r+1)
 	w   []float64 // resampled patch
+	// gen numbers the frames (0 = unknown: no caching); blkKey says what blk
+	// holds.
+	gen    uint64
+	blkKey blockKey
 	// robust refinement's weights, residuals and sorted absolute residuals
 	rw, res, abs []float64
 	blk          []float64 // frame block as floats
@@ -235,11 +248,15 @@ func (rf *refiner) sample(img grayImage, r int, cx, cy float64) (mean float64, o
 	var ax, ay [taps]float64
 	kernelWeights(cx-fx, &ax)
 	kernelWeights(cy-fy, &ay)
-	// Convert the block once, then filter rows, then columns.
+	// Convert the block once (kept while the iterations stay on the same
+	// whole pixel of the same frame), then filter rows, then columns.
 	rows := side + taps - 1
 	blk := rf.blk[:rows*rows]
-	for j := 0; j < rows; j++ {
-		img.row(blk[j*rows:(j+1)*rows], ix-r-2, iy-r-2+j)
+	if key := (blockKey{gen: rf.gen, x: ix, y: iy, r: r}); key != rf.blkKey || rf.gen == 0 {
+		for j := 0; j < rows; j++ {
+			img.row(blk[j*rows:(j+1)*rows], ix-r-2, iy-r-2+j)
+		}
+		rf.blkKey = key
 	}
 	for j := 0; j < rows; j++ {
 		b := blk[j*rows : (j+1)*rows]
@@ -298,31 +315,31 @@ func (rf *refiner) refine(tp *template, img grayImage, x, y float64, maxIter int
 		if _, ok := rf.sample(img, tp.r, x, y); !ok {
 			return res
 		}
+		// One pass gathers every sum; since sum(wt t) = 0 and the gradients'
+		// sums are precomputed, the residual's projections follow:
+		// b = scale (sum(g v) - mean sum(g)) - sum(g t).
 		w := rf.w[:n]
-		wt := tp.wt[:n]
-		tt := tp.t[:n]
-		var mean float64
+		wt, tt := tp.wt[:n], tp.t[:n]
+		gx, gy := tp.gx[:n], tp.gy[:n]
+		var sv, svv, svt, sgx, sgy float64
 		for i, v := range w {
-			mean += wt[i] * v
+			k := wt[i] * v
+			sv += k
+			svv += k * v
+			svt += k * tt[i]
+			sgx += gx[i] * v
+			sgy += gy[i] * v
 		}
-		var ss, cross float64
-		for i, v := range w {
-			d := v - mean
-			ss += wt[i] * d * d
-			cross += wt[i] * d * tt[i]
-		}
-		if ss == 0 {
+		mean := sv
+		ss := svv - mean*mean
+		if !(ss > 1e-9*svv) {
 			return res
 		}
 		wn := math.Sqrt(ss)
 		scale := tp.norm / wn
-		var bx, by float64
-		gx, gy := tp.gx[:n], tp.gy[:n]
-		for i, v := range w {
-			e := (v-mean)*scale - tt[i]
-			bx += gx[i] * e
-			by += gy[i] * e
-		}
+		cross := svt
+		bx := scale*(sgx-mean*tp.sgx) - tp.sgxt
+		by := scale*(sgy-mean*tp.sgy) - tp.sgyt
 		dx := tp.hxx*bx + tp.hxy*by
 		dy := tp.hxy*bx + tp.hyy*by
 		res.zncc = cross / (wn * tp.norm)
@@ -575,4 +592,11 @@ func (rf *refiner) refineRobust(tp *template, img grayImage, x, y float64, maxIt
 	}
 	out.x, out.y = x, y
 	return out
+}
+
+// blockKey names a converted block: frame generation, whole-pixel position
+// and template half-size.
+type blockKey struct {
+	gen     uint64
+	x, y, r int
 }

@@ -72,8 +72,12 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 	}
 	defer tr.Close()
 
-	if err := src.Seek(rng.From); err != nil {
-		return nil, fmt.Errorf("track %s: first frame %d: %w", info.Path, rng.From, err)
+	// When the run starts at the reference frame, it is at hand already.
+	haveFirst := rng.From == m.ReferenceFrame
+	if !haveFirst {
+		if err := src.Seek(rng.From); err != nil {
+			return nil, fmt.Errorf("track %s: first frame %d: %w", info.Path, rng.From, err)
+		}
 	}
 	total := 0
 	if info.FrameCount > 0 {
@@ -94,7 +98,13 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		out.Samples = make([][]tracks.Sample, 0, total)
 	}
 	for {
-		frame, err := src.Read(&img)
+		var frame int
+		var err error
+		if haveFirst {
+			frame, haveFirst = rng.From, false
+		} else {
+			frame, err = src.Read(&img)
+		}
 		if errors.Is(err, io.EOF) {
 			break
 		}

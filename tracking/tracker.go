@@ -64,8 +64,8 @@ type Options struct {
 	// MaxIter bounds the iterations of each alignment; default 30.
 	MaxIter int
 	// Epsilon is the step in pixels below which an alignment has converged;
-	// default 0.002 (Gauss-Newton here shrinks the step about fivefold per
-	// iteration, so the position is then within about 0.0005 px).
+	// default 0.003 (Gauss-Newton here shrinks the step about fivefold per
+	// iteration, so the position is then within about 0.001 px).
 	Epsilon float64
 	// MinQuality is the normalised correlation with the reference patch below
 	// which a point is lost; default 0.6.
@@ -107,7 +107,7 @@ func DefaultOptions() Options {
 		LKWindow:         21,
 		MaxLevels:        5,
 		MaxIter:          30,
-		Epsilon:          0.002,
+		Epsilon:          0.003,
 		MinQuality:       0.6,
 		QualityDrop:      0.15,
 		ReacquireQuality: 0.85,
@@ -176,6 +176,7 @@ type Tracker struct {
 	grayOK   bool
 	prevOK   bool
 	frame    gocv.Mat // the frame being stepped (not owned)
+	gen      uint64   // counts Steps, for the refiner's block cache
 	rf       refiner
 	crit     gocv.TermCriteria
 	lkIn     gocv.Mat
@@ -339,6 +340,8 @@ func (t *Tracker) Step(frame int, img gocv.Mat) ([]tracks.Sample, error) {
 		return nil, fmt.Errorf("tracking: frame %d: %w", frame, err)
 	}
 	t.frame, t.grayOK = img, false
+	t.gen++
+	t.rf.gen = t.gen
 	out := make([]tracks.Sample, len(t.pts))
 	if t.opt.PlainLK {
 		t.ensureGray()
