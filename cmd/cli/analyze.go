@@ -200,11 +200,6 @@ func analyzeRun(opts *analyzeOptions) error {
 	res, err := analysis.Run(cfg, prog)
 	finish()
 	if err != nil {
-		var ae *analysis.InputError
-		var pe *loadlog.ParseError
-		if errors.As(err, &ae) || errors.As(err, &pe) {
-			return &InputError{Err: err}
-		}
 		return err
 	}
 	printSummary(opts, res)

@@ -5,6 +5,8 @@ import (
 	"io/fs"
 
 	"github.com/failframe/failframe/capture"
+	"github.com/failframe/failframe/report/analysis"
+	"github.com/failframe/failframe/report/loadlog"
 	"github.com/failframe/failframe/report/records"
 	"github.com/failframe/failframe/tracking/marks"
 )
@@ -60,6 +62,8 @@ func exitCode(err error) int {
 		marksErr *marks.Error
 		recErr   *records.Error
 		integErr *records.IntegrityError
+		anErr    *analysis.InputError
+		logErr   *loadlog.ParseError
 	)
 	switch {
 	case err == nil:
@@ -69,7 +73,7 @@ func exitCode(err error) int {
 	case errors.Is(err, errCancelled):
 		return ExitCancelled
 	case errors.As(err, &inErr), errors.As(err, &frameErr), errors.As(err, &clipErr), errors.As(err, &marksErr),
-		errors.As(err, &recErr), errors.As(err, &integErr),
+		errors.As(err, &recErr), errors.As(err, &integErr), errors.As(err, &anErr), errors.As(err, &logErr),
 		errors.Is(err, fs.ErrNotExist), errors.Is(err, fs.ErrPermission):
 		return ExitBadInput
 	}

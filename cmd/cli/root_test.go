@@ -9,6 +9,8 @@ import (
 	"testing"
 
 	"github.com/failframe/failframe/capture"
+	"github.com/failframe/failframe/report/analysis"
+	"github.com/failframe/failframe/report/loadlog"
 	"github.com/failframe/failframe/tracking/marks"
 )
 
@@ -57,6 +59,8 @@ func TestExitCodeMap(t *testing.T) {
 		{fmt.Errorf("read: %w", &capture.FrameError{Path: "c.mp4", Frame: 3, Err: errors.New("corrupt")}), ExitBadInput},
 		{&marks.Error{Path: "m.yaml", Line: 4, Err: errors.New("duplicate id")}, ExitBadInput},
 		{fmt.Errorf("open: %w", fs.ErrNotExist), ExitBadInput},
+		{fmt.Errorf("analyze: %w", &loadlog.ParseError{Path: "load.csv", Line: 7, Err: errors.New("time went backwards")}), ExitBadInput},
+		{&analysis.InputError{Err: errors.New("no report folder given")}, ExitBadInput},
 		{errCancelled, ExitCancelled},
 		{errors.New("something unexpected"), ExitFailure},
 	}
