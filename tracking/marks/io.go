@@ -184,6 +184,16 @@ func writeAtomic(path string, data []byte) error {
 	if err != nil {
 		return fmt.Errorf("write marks %s: %w", path, err)
 	}
+	// A marks file is shared with other tools: keep the old file's mode, or
+	// make a new one readable by all like any file the user saves.
+	mode := os.FileMode(0o644)
+	if st, err := os.Stat(path); err == nil {
+		mode = st.Mode().Perm()
+	}
+	if err := tmp.Chmod(mode); err != nil {
+		tmp.Close()
+		return fmt.Errorf("write marks %s: %w", path, err)
+	}
 	defer os.Remove(tmp.Name())
 	if _, err := tmp.Write(data); err != nil {
 		tmp.Close()
