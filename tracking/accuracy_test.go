@@ -353,3 +353,29 @@ func TestPartialOcclusion(t *testing.T) {
 		})
 	}
 }
+
+// TestAverageStillStart checks Options.AverageFrames on a still, noisy
+// scene: averaging the first frames into the reference patches must lower
+// the RMS error (the reference frame's noise otherwise biases every frame).
+func TestAverageStillStart(t *testing.T) {
+	rms := func(af int) float64 {
+		sc, probes := towerScene(3, 1, nil, nil)
+		sc.noise, sc.flicker = 2, 0.1
+		o := DefaultOptions()
+		o.AverageFrames = af
+		st := runScene(t, sc, probes, 120, o)
+		var sum float64
+		for _, s := range st {
+			if s.lost > 0 {
+				t.Fatalf("averaging %d: a point was lost", af)
+			}
+			sum += s.rms * s.rms
+		}
+		return math.Sqrt(sum / float64(len(st)))
+	}
+	off, on := rms(0), rms(16)
+	t.Logf("RMS without averaging %.4f px, with 16 frames %.4f px", off, on)
+	if !(on < 0.8*off) {
+		t.Errorf("averaging 16 still frames: RMS %.4f px, without %.4f px; want at least 20 %% lower", on, off)
+	}
+}

@@ -81,6 +81,10 @@ type template struct {
 	minEig float64
 	// anchorX, anchorY is the integer grid centre in the reference frame.
 	anchorX, anchorY int
+	// block is the grey block the template was built from (side 2r+5) and
+	// sigma its Gaussian weighting radius.
+	block []float64
+	sigma float64
 	// core lists the pixels within the inner half of the window, where the
 	// marker itself is; coreT are their zero-mean values and coreNorm their
 	// norm. The core's correlation tells a match of the marker from a match
@@ -94,26 +98,37 @@ type template struct {
 // weighted by a Gaussian of the given sigma (0 = uniform). The patch and a
 // 2-pixel border for the gradients must lie inside img.
 func newTemplate(img grayImage, ax, ay, r int, sigma float64) *template {
+	bs := 2*r + 5
+	blk := make([]float64, bs*bs)
+	for j := 0; j < bs; j++ {
+		img.row(blk[j*bs:(j+1)*bs], ax-r-2, ay-r-2+j)
+	}
+	return templateFromBlock(blk, ax, ay, r, sigma)
+}
+
+// templateFromBlock builds a template from the grey block of side 2r+5
+// centred on the anchor (the patch and a 2-pixel border for the gradients).
+func templateFromBlock(blk []float64, ax, ay, r int, sigma float64) *template {
 	side := 2*r + 1
+	bs := side + 4
 	n := side * side
-	tp := &template{r: r, n: n, anchorX: ax, anchorY: ay,
+	tp := &template{r: r, n: n, anchorX: ax, anchorY: ay, sigma: sigma, block: blk,
 		raw: make([]float64, n), rgx: make([]float64, n), rgy: make([]float64, n), gauss: make([]float64, n),
 		t: make([]float64, n), wt: make([]float64, n), gx: make([]float64, n), gy: make([]float64, n),
 		static: make([]bool, n)}
-	at := img.at
+	at := func(u, v int) float64 { return blk[(v+r+2)*bs+u+r+2] }
 	k := 0
 	for v := -r; v <= r; v++ {
 		for u := -r; u <= r; u++ {
-			x, y := ax+u, ay+v
 			w := 1.0
 			if sigma > 0 {
 				w = math.Exp(-float64(u*u+v*v) / (2 * sigma * sigma))
 			}
 			tp.gauss[k] = w
-			tp.raw[k] = at(x, y)
+			tp.raw[k] = at(u, v)
 			// Fourth-order central differences (common practice).
-			tp.rgx[k] = (at(x-2, y) - 8*at(x-1, y) + 8*at(x+1, y) - at(x+2, y)) / 12
-			tp.rgy[k] = (at(x, y-2) - 8*at(x, y-1) + 8*at(x, y+1) - at(x, y+2)) / 12
+			tp.rgx[k] = (at(u-2, v) - 8*at(u-1, v) + 8*at(u+1, v) - at(u+2, v)) / 12
+			tp.rgy[k] = (at(u, v-2) - 8*at(u, v-1) + 8*at(u, v+1) - at(u, v+2)) / 12
 			k++
 		}
 	}

@@ -87,6 +87,13 @@ type Options struct {
 	// MinTexture is the least texture (smaller structure-matrix eigenvalue
 	// over patch variance and size, 1/px^2) a marked point needs; default 0.002.
 	MinTexture float64
+	// AverageFrames is how many still frames at the start are averaged into
+	// each point's reference patch, to take the reference frame's own noise
+	// out of it; a point counts as still while within 0.1 px of its mark.
+	// It helps noisy clips that start still, and biases the patch when the
+	// points creep from the start (by up to half their creep over those
+	// frames). Default 0 (off).
+	AverageFrames int
 	// PlainLK switches the reference alignment off: points follow pyramidal
 	// Lucas-Kanade from frame to frame only (full frames, all points in one
 	// call, LKWindow, MaxLevels, MaxIter and LKEpsilon), lost when the
@@ -159,6 +166,11 @@ type pointState struct {
 	lostFor int
 	// steps counts accepted frames.
 	steps int
+	// avg sums the grey blocks of still frames at the start; avgN counts
+	// them (the reference included); avgDone is set once averaging is over.
+	avg     []float64
+	avgN    int
+	avgDone bool
 	// candX, candY is a strong match found while lost, awaiting confirmation.
 	candX, candY float64
 	candOK       bool
@@ -177,6 +189,7 @@ type Tracker struct {
 	prevOK   bool
 	frame    gocv.Mat // the frame being stepped (not owned)
 	gen      uint64   // counts Steps, for the refiner's block cache
+	rowBuf   []float64
 	rf       refiner
 	crit     gocv.TermCriteria
 	lkIn     gocv.Mat
@@ -440,10 +453,12 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 		(p.typ == 0 || res.q() >= p.typ-o.QualityDrop) &&
 		dist(res.x, res.y, px, py) <= near {
 		p.accept(res.x, res.y, res.q())
+		t.average(p, cur, res.zncc)
 		t.learn(p, cur, res.x, res.y)
 		return p.sample(res.q())
 	}
 	best := res.q()
+	t.finishAverage(p)
 
 	// Part of the window hidden? A robust alignment from the prediction
 	// leaves out what does not fit; what it keeps must match closely
@@ -496,6 +511,69 @@ func (t *Tracker) learn(p *pointState, cur grayImage, x, y float64) {
 		return
 	}
 	t.rf.learnStatic(p.tp, cur, x, y)
+}
+
+// average adds the frame's block around p's anchor to p's running sum while
+// p is still (within 0.1 px of its mark), for the first AverageFrames
+// frames; then the reference patch is rebuilt from the mean. Averaging N
+// frames divides the reference frame's noise, and the position bias it
+// causes, by about sqrt(N).
+func (t *Tracker) average(p *pointState, cur grayImage, zncc float64) {
+	if p.avgDone {
+		return
+	}
+	tp := p.tp
+	d := math.Hypot(p.cx-float64(tp.anchorX), p.cy-float64(tp.anchorY))
+	if d > 0.1 || t.opt.AverageFrames < 2 {
+		t.finishAverage(p)
+		return
+	}
+	if d < 1e-9 && zncc > 1-1e-9 {
+		return // the reference frame itself
+	}
+	bs := 2*tp.r + 5
+	if p.avg == nil {
+		p.avg = append([]float64(nil), tp.block...)
+		p.avgN = 1
+	}
+	if len(t.rowBuf) < bs {
+		t.rowBuf = make([]float64, bs)
+	}
+	row := t.rowBuf[:bs]
+	for j := 0; j < bs; j++ {
+		cur.row(row, tp.anchorX-tp.r-2, tp.anchorY-tp.r-2+j)
+		a := p.avg[j*bs : (j+1)*bs]
+		for i, v := range row {
+			a[i] += v
+		}
+	}
+	p.avgN++
+	if p.avgN >= t.opt.AverageFrames {
+		t.finishAverage(p)
+	}
+}
+
+// finishAverage ends averaging for p, rebuilding its patch from the mean
+// when at least four frames went in.
+func (t *Tracker) finishAverage(p *pointState) {
+	if p.avgDone {
+		return
+	}
+	p.avgDone = true
+	if p.avgN >= 4 {
+		for i := range p.avg {
+			p.avg[i] /= float64(p.avgN)
+		}
+		old := p.tp
+		tp := templateFromBlock(p.avg, old.anchorX, old.anchorY, old.r, old.sigma)
+		if tp.norm > 0 && tp.minEig > 0 {
+			copy(tp.static, old.static)
+			tp.ev = old.ev
+			tp.weigh()
+			p.tp = tp
+		}
+	}
+	p.avg = nil
 }
 
 // levelsFor picks the pyramid depth for an expected motion in pixels: the
