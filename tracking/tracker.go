@@ -417,7 +417,10 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 		// before the point counts as found.
 		if p.lostFor <= 10 || p.lostFor%10 == 0 || p.candOK {
 			t.ensureGray()
-			x, y, q, ok := t.search(p, cur, p.cx, p.cy, o.SearchRadius, o.ReacquireQuality)
+			x, y, q, ok := t.search(p, cur, p.cx, p.cy, o.SearchRadius, o.ReacquireQuality, true)
+			// Two marks are never on one marker: a match where another
+			// point is tracked is that point's marker.
+			ok = ok && !t.occupied(p, x, y)
 			switch {
 			case ok && p.candOK && math.Hypot(x-p.candX, y-p.candY) <= 0.5:
 				p.candOK = false
@@ -493,7 +496,7 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 
 	// Correlation search around the prediction, wider for faster points.
 	rad := min(o.MaxSearchRadius, max(o.SearchRadius, int(math.Ceil(3*speed))))
-	x, y, q, ok := t.search(p, cur, px, py, rad, o.MinQuality)
+	x, y, q, ok := t.search(p, cur, px, py, rad, o.MinQuality, false)
 	if ok && smooth(x, y) && (dist(x, y, px, py) <= near || lkOK && dist(x, y, lx, ly) <= agree) {
 		p.accept(x, y, q)
 		return p.sample(q)
@@ -641,7 +644,11 @@ func getPoint(m gocv.Mat) (x, y float64) {
 // search looks for p's reference patch within rad pixels of (x, y) by
 // normalised cross-correlation, aligns it at the best peak and reports it
 // when the aligned correlation reaches need; q is the best correlation seen.
-func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, need float64) (nx, ny, q float64, ok bool) {
+//
+// With unique set, the match must also stand out: no other peak, farther
+// than the patch's half-size from the best, may come within 0.15 of it
+// (two look-alike markers in reach make the answer unsafe).
+func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, need float64, unique bool) (nx, ny, q float64, ok bool) {
 	r := p.tp.r
 	cx, cy := int(math.Round(x)), int(math.Round(y))
 	rect := image.Rect(cx-rad-r, cy-rad-r, cx+rad+r+1, cy+rad+r+1).Intersect(image.Rect(0, 0, t.width, t.height))
@@ -655,12 +662,51 @@ func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, ne
 	if float64(peak) < need-0.1 {
 		return 0, 0, float64(peak), false
 	}
+	if unique && !t.standsOut(loc, peak, r) {
+		return 0, 0, float64(peak), false
+	}
 	sx, sy := float64(rect.Min.X+loc.X+r), float64(rect.Min.Y+loc.Y+r)
 	res := t.rf.refine(p.tp, cur, sx, sy, t.opt.MaxIter, t.opt.Epsilon, float64(r))
 	if !res.ok || res.q() < need {
 		return 0, 0, math.Min(float64(peak), res.q()), false
 	}
 	return res.x, res.y, res.q(), true
+}
+
+// occupied reports whether another point, not lost, is tracked within half
+// a patch (at least 3 px) of where p's template centre (x, y) puts p.
+func (t *Tracker) occupied(p *pointState, x, y float64) bool {
+	px, py := x+p.d0x, y+p.d0y
+	lim := math.Max(3, float64(p.tp.r)/2)
+	for i := range t.pts {
+		q := &t.pts[i]
+		if q == p || q.lost {
+			continue
+		}
+		if math.Hypot(q.cx+q.d0x-px, q.cy+q.d0y-py) < lim {
+			return true
+		}
+	}
+	return false
+}
+
+// standsOut reports whether the correlation peak at loc is at least 0.15
+// above every value farther than r from it in t.match.
+func (t *Tracker) standsOut(loc image.Point, peak float32, r int) bool {
+	vals, err := t.match.DataPtrFloat32()
+	if err != nil || !t.match.IsContinuous() {
+		return false
+	}
+	w, h := t.match.Cols(), t.match.Rows()
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			dx, dy := x-loc.X, y-loc.Y
+			if dx*dx+dy*dy > r*r && vals[y*w+x] > peak-0.15 {
+				return false
+			}
+		}
+	}
+	return true
 }
 
 // stepPlain runs frame-to-frame Lucas-Kanade for all points in one call.
