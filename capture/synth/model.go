@@ -75,6 +75,7 @@ type model struct {
 
 	// failure
 	fail         int // member index, -1 for a twist or joint failure
+	failPanel    int // the panel a leg buckles in between braces, else 0
 	joint        int // node index of a joint that lets go, else -1
 	jointFirst   int // the member reported first for a joint failure
 	detach       map[int]detachment
@@ -295,10 +296,23 @@ func (m *model) buildPoints() {
 	n := m.n
 	for l := 0; l < 4; l++ {
 		front := m.front[l] || m.front[(l+3)%4]
+		mb := &m.members[l] // legs are the first four members, in leg order
+		mb.pointIDs = nil
 		for k := 0; k <= n; k++ {
 			ni := jointIndex(n, l, k)
 			m.points = append(m.points, pointDef{id: m.nodes[ni].id, node: ni, member: -1,
 				leg: string(legLetters[l]), level: k, marker: front, rest: m.nodes[ni].rest})
+			mb.pointIDs = append(mb.pointIDs, m.nodes[ni].id)
+			if k == n || !m.s.LegMidMarkers {
+				continue
+			}
+			// mid-panel point of panel k+1, between levels k and k+1
+			s := (float64(k) + 0.5) / float64(n)
+			id := legMidID(mb.id, k+1)
+			m.points = append(m.points, pointDef{id: id, node: -1, member: l, s: s,
+				leg: string(legLetters[l]), level: -1, marker: front,
+				rest: lerp3(m.nodes[ni].rest, m.nodes[jointIndex(n, l, k+1)].rest, 0.5)})
+			mb.pointIDs = append(mb.pointIDs, id)
 		}
 	}
 	seenCross := map[int]bool{}
@@ -335,6 +349,10 @@ func (m *model) buildPoints() {
 			rest: m.blockSticker(i)})
 	}
 }
+
+// legMidID names the mid-panel point of a leg member in a panel (1 =
+// between levels 0 and 1): "leg-A-mid2".
+func legMidID(leg string, panel int) string { return fmt.Sprintf("%s-mid%d", leg, panel) }
 
 // blockCorners returns the block's rest corners: bottom 0-3 then top 4-7,
 // each counter-clockwise from the A corner.
@@ -389,6 +407,10 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 			}
 		}
 	}
+	legID, panel, hasPanel := splitLegPanel(id)
+	if hasPanel {
+		id = legID
+	}
 	for i, mb := range m.members {
 		if mb.id == id {
 			m.fail = i
@@ -433,7 +455,7 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 		p0, p1 := m.nodes[mb.anchors[0].node].rest, m.nodes[mb.anchors[len(mb.anchors)-1].node].rest
 		axis := p1.sub(p0).unit()
 		switch {
-		case mb.kind == "leg" && s.Bracing == BracingHorizontal:
+		case mb.kind == "leg" && s.Bracing == BracingHorizontal && !hasPanel:
 			m.mode = ModeLegFullHeight
 			m.sBreak = (math.Floor(float64(n)/2) + 0.5) / float64(n)
 			m.bowDir = right.sub(axis.scale(right.dot(axis))).unit().scale(sign)
@@ -441,13 +463,19 @@ func (m *model) setupFailure(frontFace int, rng *rand.Rand) {
 			lean = m.bowDir
 			m.leanMax, m.dropMax, m.twistC = 22*math.Pi/180, 0.2*s.HeightMM, 12*math.Pi/180
 		case mb.kind == "leg":
+			// one panel bows as a half-sine between its two braced levels,
+			// which stay in line (Euler column with K = 1 over the panel)
 			m.mode = ModeLegBetweenBraces
-			m.span1 = 1 / float64(n)
-			m.sBreak = 0.5 / float64(n)
+			if !hasPanel {
+				panel = 1
+			}
+			m.failPanel = panel
+			m.span0, m.span1 = float64(panel-1)/float64(n), float64(panel)/float64(n)
+			m.sBreak = m.span0 + 0.42*(m.span1-m.span0) // beside the mid-panel sticker
 			m.bowDir = right.sub(axis.scale(right.dot(axis))).unit().scale(sign)
-			m.zLo, m.zHi = 0, m.levelsZ[1]
+			m.zLo, m.zHi = m.levelsZ[panel-1], m.levelsZ[panel]
 			lean = m.bowDir
-			m.leanMax, m.dropMax, m.twistC = 25*math.Pi/180, 0.5*m.levelsZ[1], 8*math.Pi/180
+			m.leanMax, m.dropMax, m.twistC = 25*math.Pi/180, 0.5*(m.zHi-m.zLo), 8*math.Pi/180
 		default:
 			m.mode = ModeBraceBuckling
 			if len(mb.anchors) == 3 {
@@ -683,6 +711,19 @@ func (m *model) pose(t float64) *pose {
 	return ps
 }
 
+// halfOf returns the half (0 below the break point, 1 above) of an anchor
+// at parameter s of the failing member; an anchor at the break point itself
+// belongs to the half h being drawn.
+func (m *model) halfOf(s float64, h int) int {
+	switch {
+	case s < m.sBreak:
+		return 0
+	case s > m.sBreak:
+		return 1
+	}
+	return h
+}
+
 // memberPos returns the position of member mi at parameter s on half h.
 func (m *model) memberPos(mi int, s float64, half int, ps *pose) vec3 {
 	mb := &m.members[mi]
@@ -695,8 +736,10 @@ func (m *model) memberPos(mi int, s float64, half int, ps *pose) vec3 {
 	p := lerp3(ps.nodes[a0.node], ps.nodes[a1.node], u)
 	if mi == m.fail {
 		o := m.off(s, half, ps.t)
-		oa := m.off(a0.s, half, ps.t)
-		ob := m.off(a1.s, half, ps.t)
+		// each anchor on its own side of the break, so that the two
+		// pieces part there once the member has snapped
+		oa := m.off(a0.s, m.halfOf(a0.s, half), ps.t)
+		ob := m.off(a1.s, m.halfOf(a1.s, half), ps.t)
 		p = p.add(o.sub(lerp3(oa, ob, u)))
 	}
 	if d, ok := m.detach[mi]; ok {

@@ -109,9 +109,10 @@ func (r *Renderer) Marks() *marks.File {
 		}
 		x, y, _ := m.cam.project(m.pointPos(i, ps))
 		mp := marks.Point{ID: p.id, PX: [2]float64{round6(x), round6(y)}}
-		if p.leg != "" {
+		mp.Leg = p.leg
+		if p.level >= 0 {
 			lv := p.level
-			mp.Leg, mp.Level = p.leg, &lv
+			mp.Level = &lv
 		} else {
 			plan := [2]float64{round6(p.rest.x), round6(p.rest.y)}
 			mp.PlanMM = &plan

@@ -133,6 +133,12 @@ type Scenario struct {
 	// "joint-A0": leg A's foot slides off the base), or "" for the pattern's
 	// default: a long diagonal on the face nearest the camera, or for
 	// horizontal-only bracing the leg nearest the camera over its full height.
+	//
+	// A leg fails over its full height with horizontal-only bracing and
+	// between two braced levels otherwise: "leg-B" buckles in panel 1
+	// (between levels 0 and 1); "leg-B:2" names the panel, here between
+	// levels 1 and 2 (any bracing). Between braces, the leg bows as a
+	// half-sine over that panel only, then snaps and the tower collapses.
 	Fail string
 	// TwistDeg is the top level's twist when the first member breaks (for
 	// Fail = "twist": at the collapse), degrees counter-clockwise from above;
@@ -163,6 +169,14 @@ type Scenario struct {
 	// ShakePX is the peak camera shake, in pixels, when the falling load hits
 	// the floor at the end of the collapse; 0 = a still camera. Default 0.
 	ShakePX float64
+
+	// LegMidMarkers puts a marker at mid-panel on each leg (half-way
+	// between two levels), so that a leg buckling between braces shows.
+	// The point of leg A in panel p (between levels p-1 and p) is named
+	// "leg-A-midp" (e.g. "leg-A-mid2"), after its member as a brace's
+	// mid-span point is, and numbered by panel as diagonals are; leg
+	// members then run A0, leg-A-mid1, A1, leg-A-mid2, A2, ... Default true.
+	LegMidMarkers bool
 
 	// SkipMP4 skips the H.264 copy of the clip even when ffmpeg is present.
 	SkipMP4 bool
@@ -200,6 +214,7 @@ func Default() Scenario {
 		BlurPX:         0.6,
 		MassG:          21.4,
 		PeakLoadG:      6350,
+		LegMidMarkers:  true,
 	}
 }
 
@@ -305,6 +320,12 @@ func (s Scenario) validateFields() error {
 		}
 		return nil
 	}
+	if leg, panel, ok := splitLegPanel(s.Fail); ok {
+		if len(leg) != 5 || !strings.HasPrefix(leg, "leg-") || !strings.ContainsRune(legLetters, rune(leg[4])) || panel < 1 || panel > s.Levels {
+			return fmt.Errorf("unknown leg panel %q for --fail (use leg-<leg>:<panel>, e.g. leg-B:2 for leg B between levels 1 and 2, panels 1..%d)", s.Fail, s.Levels)
+		}
+		return nil
+	}
 	if s.Fail != "" && s.Fail != FailTwist {
 		ids := memberIDs(s)
 		found := false
@@ -318,6 +339,21 @@ func (s Scenario) validateFields() error {
 		}
 	}
 	return nil
+}
+
+// splitLegPanel splits a Fail value of the form "leg-B:2" into the leg
+// member id and the panel; ok is false when fail has no colon. A panel that
+// is not a number comes back as 0.
+func splitLegPanel(fail string) (leg string, panel int, ok bool) {
+	i := strings.IndexByte(fail, ':')
+	if i < 0 {
+		return fail, 0, false
+	}
+	var p int
+	if _, err := fmt.Sscanf(fail[i+1:], "%d", &p); err != nil || fmt.Sprint(p) != fail[i+1:] {
+		p = 0
+	}
+	return fail[:i], p, true
 }
 
 // twistDeg returns the effective top twist before collapse.

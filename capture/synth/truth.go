@@ -50,6 +50,9 @@ type Truth struct {
 	// FailureMode is one of tower_twist, leg_full_height, leg_between_braces,
 	// brace_buckling, joint_or_base.
 	FailureMode string `json:"failure_mode"`
+	// FailedPanel is the panel a leg buckled in between braces (1 = between
+	// levels 0 and 1); absent for other failures.
+	FailedPanel int `json:"failed_panel,omitempty"`
 	// FailedJoint is the joint that let go, for a joint failure (the first
 	// member is then the member that came off it first).
 	FailedJoint string `json:"failed_joint,omitempty"`
@@ -101,10 +104,12 @@ type TruthTower struct {
 // TruthPoint is one named point's image position in every frame.
 type TruthPoint struct {
 	ID string `json:"id"`
-	// Leg and Level are set for leg joints.
+	// Leg is set for points on a leg (joints and mid-panel points), Level
+	// for leg joints only.
 	Leg   string `json:"leg,omitempty"`
 	Level *int   `json:"level,omitempty"`
-	// Member is set for points inside a member (mid-spans, quarter points).
+	// Member is set for points inside a member (mid-spans, quarter points,
+	// a leg's mid-panel points).
 	Member string `json:"member,omitempty"`
 	// Marker is true when a marker sticker is drawn on the point (the faces
 	// toward the camera); only those points are in marks.yaml.
@@ -221,6 +226,7 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 	switch {
 	case m.fail >= 0:
 		t.FirstMember = m.members[m.fail].id
+		t.FailedPanel = m.failPanel
 	case m.joint >= 0:
 		t.FirstMember = m.members[m.jointFirst].id
 		t.FailedJoint = m.nodes[m.joint].id
@@ -229,9 +235,10 @@ func (m *model) computeTruth(load *loadModel) *Truth {
 	}
 	for _, p := range m.points {
 		tp := TruthPoint{ID: p.id, Marker: p.marker, PX: make([][2]float64, nf)}
-		if p.leg != "" {
+		tp.Leg = p.leg
+		if p.level >= 0 {
 			lv := p.level
-			tp.Leg, tp.Level = p.leg, &lv
+			tp.Level = &lv
 		}
 		if p.member >= 0 {
 			tp.Member = m.members[p.member].id

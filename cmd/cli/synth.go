@@ -46,13 +46,17 @@ The output folder gets:
   truth.json   image position of every point in every frame, twist, sway and
                settlement per level, chord and bow per member, the failure
                events, and the load log's clock offset
-  marks.yaml   the marked points and members for the clip (frame 0)
+  marks.yaml   the marked points and members for the clip (frame 0); legs
+               are marked at every level and, unless --leg-mid-markers=false,
+               at mid-panel (leg-A-mid2 is leg A half-way between levels 1
+               and 2)
   load.csv     load-cell log: time_ms since the logger started, load_g
 
 The same --seed gives the same clip, bit for bit.
 ` + exitHelp,
 		Example: `  failframe synth --out demo-out/clip --seed 7
-  failframe synth --out /tmp/h --bracing horizontal --frames 300 --onset-frame 120 --break-frame 200 --collapse-frame 210`,
+  failframe synth --out /tmp/h --bracing horizontal --frames 300 --onset-frame 120 --break-frame 200 --collapse-frame 210
+  failframe synth --out /tmp/leg --bracing z --fail leg-B:2`,
 		Args: exactArgs(0),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if opts.out == "" {
@@ -91,7 +95,8 @@ The same --seed gives the same clip, bit for bit.
 	f.IntVar(&s.OnsetFrame, "onset-frame", s.OnsetFrame, "frame where the failing member's bow passes 0.5 % of its length (twist failure: where the twist runs away)")
 	f.IntVar(&s.BreakFrame, "break-frame", s.BreakFrame, "first frame showing the failing member broken")
 	f.IntVar(&s.CollapseFrame, "collapse-frame", s.CollapseFrame, "first frame of the global collapse (which takes about 0.05 s of capture)")
-	f.StringVar(&s.Fail, "fail", s.Fail, `member that buckles first (e.g. AB-d1, AB-x1a, leg-B), "twist" for a tower that twists as a whole, joint-<leg><level> for a glued joint that lets go (joint-B2: its braces come off; joint-A0: leg A's foot slides off the base), or empty for the pattern's default (a long diagonal on the face toward the camera; for horizontal bracing the leg nearest the camera over its full height)`)
+	f.StringVar(&s.Fail, "fail", s.Fail, `member that buckles first (e.g. AB-d1, AB-x1a, leg-B), leg-<leg>:<panel> for a leg buckling between two braced levels (leg-B:2: leg B between levels 1 and 2; plain leg-B is panel 1, or the full height with horizontal bracing), "twist" for a tower that twists as a whole, joint-<leg><level> for a glued joint that lets go (joint-B2: its braces come off; joint-A0: leg A's foot slides off the base), or empty for the pattern's default (a long diagonal on the face toward the camera; for horizontal bracing the leg nearest the camera over its full height)`)
+	f.BoolVar(&s.LegMidMarkers, "leg-mid-markers", s.LegMidMarkers, "mark each visible leg at mid-panel too (points leg-A-mid1 .. between levels), so a leg buckling between braces shows; --leg-mid-markers=false marks legs at the braced levels only")
 	f.Float64Var(&s.TwistDeg, "twist-deg", s.TwistDeg, "top twist when the first member breaks (--fail twist: at collapse), degrees counter-clockwise from above; negative = pattern default (6 for horizontal bracing or --fail twist, else 0.8)")
 	f.Float64Var(&s.SwayMM, "sway-mm", s.SwayMM, "top sway when the first member breaks (--fail twist: at collapse), mm")
 	f.Float64Var(&s.Noise, "noise", s.Noise, "sensor noise, standard deviation in 8-bit grey levels at mid grey (grows with brightness)")

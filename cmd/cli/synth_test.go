@@ -28,7 +28,7 @@ func TestSynthFlagsToOptions(t *testing.T) {
 			"--distance-mm", "900", "--camera-height-mm", "200", "--azimuth-deg", "-30", "--capture-fps", "480",
 			"--container-fps", "24", "--frames", "300", "--onset-frame", "100", "--break-frame", "200",
 			"--collapse-frame", "210", "--fail", "BC-x2b", "--twist-deg", "1.5", "--sway-mm", "2", "--noise", "3",
-			"--flicker", "0.05", "--blur-px", "0.8", "--mass-g", "18.2", "--peak-load-g", "5000", "--cord-mm", "3", "--shake-px", "2.5", "--k1", "-0.1", "--no-mp4"},
+			"--flicker", "0.05", "--blur-px", "0.8", "--mass-g", "18.2", "--peak-load-g", "5000", "--cord-mm", "3", "--shake-px", "2.5", "--k1", "-0.1", "--no-mp4", "--leg-mid-markers=false"},
 			func(t *testing.T, o *synthOptions) {
 				s := o.scenario
 				if s.Seed != 11 || s.Bracing != "x" || s.Levels != 5 || s.BaseMM != 120 || s.TopMM != 50 || s.HeightMM != 350 ||
@@ -36,7 +36,7 @@ func TestSynthFlagsToOptions(t *testing.T) {
 					s.AzimuthDeg != -30 || s.CaptureFPS != 480 || s.ContainerFPS != 24 || s.Frames != 300 ||
 					s.OnsetFrame != 100 || s.BreakFrame != 200 || s.CollapseFrame != 210 || s.Fail != "BC-x2b" ||
 					s.TwistDeg != 1.5 || s.SwayMM != 2 || s.Noise != 3 || s.Flicker != 0.05 || s.BlurPX != 0.8 ||
-					s.MassG != 18.2 || s.PeakLoadG != 5000 || s.CordMM != 3 || s.ShakePX != 2.5 || s.K1 != -0.1 || !s.SkipMP4 {
+					s.MassG != 18.2 || s.PeakLoadG != 5000 || s.CordMM != 3 || s.ShakePX != 2.5 || s.K1 != -0.1 || !s.SkipMP4 || s.LegMidMarkers {
 					t.Errorf("scenario %+v", s)
 				}
 			}},
@@ -67,6 +67,8 @@ func TestSynthBadOptionsExit2(t *testing.T) {
 		{"unknown pattern", []string{"synth", "--out", "o", "--bracing", "k-brace"}, `unknown bracing pattern "k-brace"`},
 		{"unknown member", []string{"synth", "--out", "o", "--fail", "AB-q9"}, `unknown member "AB-q9"`},
 		{"unknown joint", []string{"synth", "--out", "o", "--fail", "joint-Q1"}, `unknown joint "joint-Q1"`},
+		{"leg panel above the top", []string{"synth", "--out", "o", "--fail", "leg-B:5"}, `unknown leg panel "leg-B:5"`},
+		{"leg panel not a number", []string{"synth", "--out", "o", "--fail", "leg-B:two"}, `unknown leg panel "leg-B:two"`},
 		{"tower off the frame", []string{"synth", "--out", "o", "--focal-px", "3000"}, "does not fit"},
 		{"not a number", []string{"synth", "--out", "o", "--frames", "many"}, "invalid argument"},
 		{"stray argument", []string{"synth", "--out", "o", "extra"}, "accepts 0 arg"},
