@@ -75,6 +75,32 @@ func TestDiagnoseScenarios(t *testing.T) {
 			account: []string{"leg A (leg-A) between levels 0 and 4 began to bow at 0.1", "collapsed in the same frame"},
 		},
 		{
+			name: "leg buckles in one panel while the tower sways",
+			setup: func(s *scene) {
+				s.midLeg = true
+				// Only panel 2 (levels 1 and 2, 70 to 140 mm) of leg A bows;
+				// its mid-panel point is at 105 mm.
+				s.legBow = func(leg string, f int, h float64) float64 {
+					if leg == "A" && h > 70 && h < 140 && f >= 120 {
+						return 0.05 * float64(f-120)
+					}
+					return 0
+				}
+				// The levels sway with the square of their height (1.5 mm at
+				// the top by frame 150), which curves the leg's end-to-end
+				// chord line by about 0.3 mm at that panel: against the chord,
+				// the bow would reach 0.5 % some 6 frames off.
+				s.sway = func(l, f int) [2]float64 {
+					h := float64(l) / 4
+					return [2]float64{0.01 * float64(f) * h * h, 0}
+				}
+				s.lost = func(id string, f int) bool { return f >= 230 }
+			},
+			// 0.5 % of the 282.2 mm leg is 1.41 mm, reached at 120 + 1.41/0.05 -> frame 149.
+			collapse: 230, first: "leg-A", onset: 149, mode: ModeLegBetweenBraces,
+			account: []string{"leg A (leg-A) between levels 0 and 4 began to bow at 0.1"},
+		},
+		{
 			name: "tower twists, no member bows",
 			setup: func(s *scene) {
 				s.twist = func(l, f int) float64 {

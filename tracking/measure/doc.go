@@ -51,7 +51,14 @@
 // point's offset from the straight line through the leg's ends; its shape is
 // fitted with half-sines of 1 to 4 half-waves, giving the half-wavelength
 // and the effective length factor K = half-wavelength / leg length (Euler:
-// P = pi^2 E I / (K L)^2).
+// P = pi^2 E I / (K L)^2). A leg marked at mid-panel (points with a leg but
+// no level, between two of its level points) is first checked for one panel
+// buckling alone: a mid-panel point's offset from the line through its
+// panel's two joints at least PanelBowRatio times every joint's deflection
+// and every other panel's bow. Its half-wave is then the panel (K = 1 over
+// the panel, Leg.PanelK; Leg.Between names the panel's joints), and the leg
+// member's bow is measured against the panel's joints, so the tower's own
+// sway, which curves the line of the leg's joints, does not shift its onset.
 //
 // # Events
 //
@@ -88,7 +95,8 @@
 //   - leg_full_height: the first member to bow is a leg and its deflected
 //     shape is one half-wave over the leg's whole height (K near 1).
 //   - leg_between_braces: the first member to bow is a leg and its deflected
-//     shape has two or more half-waves, i.e. it buckled between braced points
+//     shape has two or more half-waves, or one panel bowed alone between
+//     joints that stayed in line, i.e. it buckled between braced points
 //     (this needs marked points between the levels on the legs).
 //   - brace_buckling: the first member to bow is a brace.
 //   - joint_or_base: no member bowed, but one broke or lost its track before

@@ -89,7 +89,10 @@ type Member struct {
 	// explain (a member turning with its level looks shorter) is divided out.
 	StrainPct []float64
 	// BowMM is the largest perpendicular offset of an interior point from the
-	// chord, change since the reference frame, mm (>= 0; NaN without interior points).
+	// chord, change since the reference frame, mm (>= 0; NaN without interior
+	// points). For a leg marked at mid-panel it is the larger of its braced
+	// joints' offsets from the leg's chord and its panels' own bows (see
+	// legBow), so a leg buckling between braces shows its panel's bow.
 	BowMM []float64
 	// BowFrac is BowMM over LengthMM.
 	BowFrac []float64
@@ -125,10 +128,19 @@ type Leg struct {
 	K float64
 	// Shape is "full_height", "between_braces" or "straight".
 	Shape string
+	// Between are the ids of the two points the buckled half-wave ran
+	// between when one panel bowed while the leg's braced joints stayed in
+	// line (a leg marked at mid-panel; "" otherwise).
+	Between [2]string
+	// PanelK is the effective length factor over the length between those
+	// two points: half-wavelength / that length, 1 for a panel buckling as a
+	// pinned-pinned Euler column between its braces (NaN otherwise).
+	PanelK float64
 	// Note states the shape's meaning and the Euler relation it rests on.
 	Note string
 
-	midPanel bool // some point sits between braced levels
+	midPanel bool   // some point sits between braced levels
+	isLevel  []bool // per point: at a braced level (or the leg's end)
 }
 
 // point is a marked point with its derived geometry.
@@ -378,6 +390,7 @@ func Measure(in Input) (*Result, error) {
 	g.excess = g.jointExcess(res.Legs, rigid)
 	res.Levels, res.Notes = g.levels(res.Notes)
 	res.Members = g.members(res.Levels)
+	panelAwareLegBows(res)
 	return res, nil
 }
 

@@ -192,7 +192,7 @@ func (g *geom) legs() []Leg {
 		if refLen == 0 {
 			continue
 		}
-		L := Leg{Leg: name, LengthMM: refLen * g.s, HalfWaveMM: nanSlice(g.n), Row: -1, K: math.NaN(), Shape: ShapeStraight}
+		L := Leg{Leg: name, LengthMM: refLen * g.s, HalfWaveMM: nanSlice(g.n), Row: -1, K: math.NaN(), PanelK: math.NaN(), Shape: ShapeStraight}
 		if a.hasPlan && b.hasPlan && a.hasH && b.hasH {
 			L.LengthMM = math.Sqrt(sq(a.plan[0]-b.plan[0]) + sq(a.plan[1]-b.plan[1]) + sq(a.height-b.height))
 		}
@@ -207,9 +207,10 @@ func (g *geom) legs() []Leg {
 				tpos[i] = (p.height - a.height) / (b.height - a.height)
 			}
 			L.HeightsMM = append(L.HeightsMM, tpos[i]*L.LengthMM)
-			if p.level < 0 {
+			if p.level < 0 && i > 0 && i < len(ps)-1 {
 				L.midPanel = true
 			}
+			L.isLevel = append(L.isLevel, p.level >= 0 || i == 0 || i == len(ps)-1)
 			refOff[i] = perpOffset(a.ref, b.ref, p.ref)
 			scale[i] = g.offsetScale(a, b, p, false)
 		}
@@ -240,8 +241,9 @@ func (g *geom) legs() []Leg {
 				}
 				continue
 			}
-			n, amp := HalfWaves(interiorT, d[1:len(ps)-1], 4)
-			if n > 0 && math.Abs(amp) >= thr {
+			if lb, ok := panelBows(d, L.HeightsMM, L.isLevel); ok && lb.localized(thr) {
+				L.HalfWaveMM[row] = L.HeightsMM[lb.hi] - L.HeightsMM[lb.lo]
+			} else if n, amp := HalfWaves(interiorT, d[1:len(ps)-1], 4); n > 0 && math.Abs(amp) >= thr {
 				L.HalfWaveMM[row] = L.LengthMM / float64(n)
 			}
 			if mx := maxAbs(d); mx > bestAmp && mx >= thr {
@@ -297,12 +299,30 @@ func (l *Leg) SummarizeAt(row int) {
 }
 
 func (l *Leg) summarize() {
-	l.HalfWaves, l.K, l.Shape = 0, math.NaN(), ShapeStraight
+	l.HalfWaves, l.K, l.PanelK, l.Shape, l.Between = 0, math.NaN(), math.NaN(), ShapeStraight, [2]string{}
 	if l.Row < 0 {
 		l.Note = fmt.Sprintf("leg %s stayed straight within %.2f mm over its %.0f mm length", l.Leg, legThreshold(l.LengthMM), l.LengthMM)
 		return
 	}
 	d := l.DeflectionMM[l.Row]
+	euler := "Euler: P = pi^2 E I / (K L)^2, so the load a leg carries falls with the square of its effective length K L"
+	if lb, ok := panelBows(d, l.HeightsMM, l.isLevel); ok && lb.localized(legThreshold(l.LengthMM)) {
+		// One panel bowed between joints that stayed in line: a half-wave
+		// from one braced point to the next.
+		hw := l.HeightsMM[lb.hi] - l.HeightsMM[lb.lo]
+		l.HalfWaves = 1
+		l.K = hw / l.LengthMM
+		l.PanelK = 1
+		l.Between = [2]string{l.Points[lb.lo], l.Points[lb.hi]}
+		if lb.lo == 0 && lb.hi == len(d)-1 {
+			l.Shape = ShapeFullHeight
+			l.Note = fmt.Sprintf("leg %s bent in one half-wave over its whole %.0f mm height: effective length K L = %.0f mm with K = %.2f (pinned-pinned over the full leg). %s", l.Leg, l.LengthMM, hw, l.K, euler)
+			return
+		}
+		l.Shape = ShapeBetweenBraces
+		l.Note = fmt.Sprintf("leg %s bowed %.1f mm between %s and %s while its braced joints stayed within %.1f mm of its line: it buckled between braces in one half-wave of %.0f mm, the panel's length (K = 1 over the panel, K = %.2f of the %.0f mm leg). %s; the bracing held the leg at its levels, and halving this panel's length would carry 4 times the load", l.Leg, math.Abs(lb.bow), l.Points[lb.lo], l.Points[lb.hi], lb.joints, hw, l.K, l.LengthMM, euler)
+		return
+	}
 	t := make([]float64, len(d))
 	for i, h := range l.HeightsMM {
 		t[i] = h / l.LengthMM
@@ -315,7 +335,6 @@ func (l *Leg) summarize() {
 	l.HalfWaves = n
 	hw := l.LengthMM / float64(n)
 	l.K = hw / l.LengthMM
-	euler := "Euler: P = pi^2 E I / (K L)^2, so the load a leg carries falls with the square of its effective length K L"
 	if n == 1 {
 		l.Shape = ShapeFullHeight
 		l.Note = fmt.Sprintf("leg %s bent in one half-wave over its whole %.0f mm height: effective length K L = %.0f mm with K = %.2f (pinned-pinned over the full leg), so the bracing did not hold the leg sideways. %s; a leg held at every braced level would buckle over one panel instead", l.Leg, l.LengthMM, hw, l.K, euler)

@@ -67,6 +67,9 @@ func TestPipelineOnRenderedClips(t *testing.T) {
 		// 6 frames late; the limit stays loose here until tracking closes it.
 		{synth.BracingX, "", 8},
 		{synth.BracingZ, synth.FailTwist, tolOnset},
+		// Leg B buckles in panel 2 (between levels 1 and 2) only; the legs
+		// are marked at mid-panel (the synthesizer's default).
+		{synth.BracingZ, "leg-B:2", tolOnset},
 	} {
 		name := tc.bracing
 		if tc.fail != "" {

@@ -1,6 +1,7 @@
 package e2e
 
 import (
+	"fmt"
 	"math"
 	"math/rand"
 	"testing"
@@ -115,6 +116,14 @@ func checkAgainstTruth(t *testing.T, tr *synth.Truth, res *measure.Result, d *me
 			}
 		}
 	}
+	// A leg that buckled in one panel reads as one half-wave between the
+	// panel's two braced joints: half-wavelength = the panel's length, an
+	// effective length factor K = 1 over the panel (Euler column pinned at
+	// both braces, AISC 360-22 Commentary Table C-A-7.1, pinned-pinned
+	// K = 1.0), and K = panel / leg length relative to the whole leg.
+	if tr.FailureMode == measure.ModeLegBetweenBraces {
+		checkPanelBuckle(t, tr, res)
+	}
 	if tr.FirstMember == "" {
 		return
 	}
@@ -144,6 +153,8 @@ func TestTruthDerivedTracks(t *testing.T) {
 		{"x", synth.BracingX, "", 25},
 		{"twist", synth.BracingZ, synth.FailTwist, 25},
 		{"diagonal from -30 deg", synth.BracingDiagonal, "", -30},
+		{"leg between braces", synth.BracingZ, "leg-B:2", 25},
+		{"leg between braces, crossed bracing", synth.BracingX, "leg-A:3", 25},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			s := synth.Default()
@@ -170,3 +181,48 @@ func TestTruthDerivedTracks(t *testing.T) {
 		})
 	}
 }
+
+// checkPanelBuckle checks the first leg's shape against the panel the
+// synthesizer buckled.
+func checkPanelBuckle(t *testing.T, tr *synth.Truth, res *measure.Result) {
+	t.Helper()
+	p := tr.FailedPanel
+	if p < 1 || p >= len(tr.Tower.LevelsMM) {
+		t.Fatalf("truth has no failed panel (%d)", p)
+	}
+	var leg *measure.Leg
+	for i := range res.Legs {
+		if "leg-"+res.Legs[i].Leg == tr.FirstMember {
+			leg = &res.Legs[i]
+		}
+	}
+	if leg == nil {
+		t.Fatalf("no leg measured for %s", tr.FirstMember)
+	}
+	// The panel's length along the leg: its height and the taper's inward
+	// step in x and y.
+	tw := tr.Tower
+	z0, z1 := tw.LevelsMM[p-1], tw.LevelsMM[p]
+	step := (tw.BaseMM - tw.TopMM) / tw.HeightMM * (z1 - z0) / 2
+	panel := math.Sqrt((z1-z0)*(z1-z0) + 2*step*step)
+	legLen := math.Sqrt(tw.HeightMM*tw.HeightMM + 2*sq((tw.BaseMM-tw.TopMM)/2))
+	var hw float64 = math.NaN()
+	if leg.Row >= 0 {
+		hw = leg.HalfWaveMM[leg.Row]
+	}
+	name := leg.Leg
+	want := [2]string{fmt.Sprintf("%s%d", name, p-1), fmt.Sprintf("%s%d", name, p)}
+	t.Logf("leg %s: %s between %v, half-wave %.1f mm (panel %.1f mm), K %.3f of the leg (panel/leg %.3f), K %.2f over the panel; %s",
+		name, leg.Shape, leg.Between, hw, panel, leg.K, panel/legLen, leg.PanelK, leg.Note)
+	if leg.Shape != measure.ShapeBetweenBraces || leg.Between != want {
+		t.Errorf("leg %s: shape %s between %v, want between_braces between %v", name, leg.Shape, leg.Between, want)
+	}
+	if !(math.Abs(hw-panel) <= 0.05*panel) {
+		t.Errorf("leg %s: half-wave %.1f mm, want the panel length %.1f mm within 5 %%", name, hw, panel)
+	}
+	if !(math.Abs(leg.PanelK-1) <= 0.05) || !(math.Abs(leg.K-panel/legLen) <= 0.05*panel/legLen) {
+		t.Errorf("leg %s: K %.3f of the leg and %.2f over the panel, want %.3f and 1", name, leg.K, leg.PanelK, panel/legLen)
+	}
+}
+
+func sq(x float64) float64 { return x * x }
