@@ -67,7 +67,8 @@ type Options struct {
 	// default 0.003 (Gauss-Newton here shrinks the step about fivefold per
 	// iteration, so the position is then within about 0.001 px).
 	Epsilon float64
-	// MinQuality is the normalised correlation with the reference patch below
+	// MinQuality is the match quality (normalised correlation with the
+	// reference patch, the lower of the whole window's and its core's) below
 	// which a point is lost; default 0.6.
 	MinQuality float64
 	// QualityDrop is how far below its running quality a point may fall
@@ -84,8 +85,9 @@ type Options struct {
 	SearchRadius int
 	// MaxSearchRadius bounds the search radius; default 128.
 	MaxSearchRadius int
-	// MinTexture is the least texture (smaller structure-matrix eigenvalue
-	// over patch variance and size, 1/px^2) a marked point needs; default 0.002.
+	// MinTexture is the least texture a marked point needs: the smaller
+	// eigenvalue of the patch's weighted structure matrix over its weighted
+	// variance, in 1/px^2 (a flat patch has 0); default 0.002.
 	MinTexture float64
 	// AverageFrames is how many still frames at the start are averaged into
 	// each point's reference patch, to take the reference frame's own noise
@@ -144,6 +146,8 @@ func (o Options) check() error {
 		return fmt.Errorf("qualities must satisfy 0 < min (%g) <= reacquire (%g) < 1", o.MinQuality, o.ReacquireQuality)
 	case !(o.MaxFB > 0):
 		return fmt.Errorf("forward-backward limit %g must be positive", o.MaxFB)
+	case o.AverageFrames < 0:
+		return fmt.Errorf("average frames %d must not be negative", o.AverageFrames)
 	case o.SearchRadius < 1 || o.MaxSearchRadius < o.SearchRadius:
 		return fmt.Errorf("search radius %d..%d is not usable", o.SearchRadius, o.MaxSearchRadius)
 	}
