@@ -428,6 +428,12 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 	}
 	peak := 0.0
 	floor := OnsetFloorFrac * m.LengthMM
+	// A leg marked at mid-panel bows (and snaps) over a panel: a jump of
+	// its bow is judged against the panel's length.
+	jumpFloor := floor
+	if m.panelMM > 0 {
+		jumpFloor = OnsetFloorFrac * m.panelMM
+	}
 	for r := max(from, 1); r < n; r++ {
 		for k, c := range cols {
 			if c >= 0 && in.Tracks.Samples[r][c].Lost && !in.Tracks.Samples[r-1][c].Lost {
@@ -458,7 +464,7 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 				}
 			}
 		}
-		if b, b0 := m.BowMM[r], m.BowMM[r-1]; !math.IsNaN(b) && !math.IsNaN(b0) && b-b0 > math.Max(bowJump, 2*floor) {
+		if b, b0 := m.BowMM[r], m.BowMM[r-1]; !math.IsNaN(b) && !math.IsNaN(b0) && b-b0 > math.Max(bowJump, 2*jumpFloor) {
 			return r, fmt.Sprintf("bow jumped from %.1f mm to %.1f mm in one frame", b0, b)
 		}
 		if onset >= 0 {

@@ -131,6 +131,17 @@ func panelAwareLegBows(res *Result) {
 		if l == nil || !sameIDs(l.Points, m.Points) {
 			continue
 		}
+		for k := 0; k+1 < len(l.isLevel); k++ {
+			if !l.isLevel[k] {
+				continue
+			}
+			for j := k + 1; j < len(l.isLevel); j++ {
+				if l.isLevel[j] {
+					m.panelMM = math.Max(m.panelMM, l.HeightsMM[j]-l.HeightsMM[k])
+					break
+				}
+			}
+		}
 		for row := range m.BowMM {
 			if row >= len(l.DeflectionMM) || math.IsNaN(m.BowMM[row]) {
 				continue

@@ -99,6 +99,8 @@ type Member struct {
 	// RotationDeg is the chord's rotation in the image since the reference
 	// frame, degrees, counter-clockwise as seen in the image positive.
 	RotationDeg []float64
+
+	panelMM float64 // for a leg marked at mid-panel: its longest panel, mm (else 0)
 }
 
 // Leg is one leg's deflected shape.

@@ -47,6 +47,9 @@ const (
 	tolTwistBrokenDeg = 0.35
 	tolSwayMM         = 0.2
 	tolOnset          = 5
+	// tolBreak is the limit on the first member's break frame (measured:
+	// 0 to 2 frames late on every case here).
+	tolBreak = 3
 )
 
 // checkAgainstTruth compares a measurement and diagnosis with the truth.
@@ -126,6 +129,21 @@ func checkAgainstTruth(t *testing.T, tr *synth.Truth, res *measure.Result, d *me
 	}
 	if tr.FirstMember == "" {
 		return
+	}
+	// The first member's break: within tolBreak frames of the truth's.
+	if tr.BreakFrame >= 0 {
+		var brk *measure.Event
+		for i, e := range d.Events {
+			if e.Kind == measure.EventBreak && e.Member == tr.FirstMember && brk == nil {
+				brk = &d.Events[i]
+			}
+		}
+		switch {
+		case brk == nil:
+			t.Errorf("no break event for %s (truth frame %d)", tr.FirstMember, tr.BreakFrame)
+		case brk.Frame < tr.BreakFrame-tolBreak || brk.Frame > tr.BreakFrame+tolBreak:
+			t.Errorf("break of %s at frame %d, truth %d (limit %d frames)", tr.FirstMember, brk.Frame, tr.BreakFrame, tolBreak)
+		}
 	}
 	for _, e := range d.Events {
 		if e.Kind == measure.EventOnset && e.Member == tr.FirstMember {
