@@ -36,7 +36,19 @@ follow local codes and licensed engineers, not model tests.` + exitHelp,
 	for _, add := range commands {
 		root.AddCommand(add(io))
 	}
+	spaceExitHelp(root)
 	return root
+}
+
+// spaceExitHelp puts one blank line before the exit-status block of every
+// command's long help, however the command's own text ends.
+func spaceExitHelp(c *cobra.Command) {
+	if i := strings.Index(c.Long, "Exit status:"); i > 0 {
+		c.Long = strings.TrimRight(c.Long[:i], "\n") + "\n\n" + c.Long[i:]
+	}
+	for _, sub := range c.Commands() {
+		spaceExitHelp(sub)
+	}
 }
 
 // commands lists the constructors of the sub-commands; each file adds its own.
