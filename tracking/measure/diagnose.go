@@ -225,11 +225,11 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 
 	for _, f := range finds {
 		if f.onset >= 0 {
-			d.Events = append(d.Events, ev(EventOnset, f.m.ID, f.onset, describe(f.m)+" began to bow ("+f.onsetDet+")"))
+			d.Events = append(d.Events, ev(EventOnset, f.m.ID, f.onset, describe(f.m, res)+" began to bow ("+f.onsetDet+")"))
 		}
 		// Breaks: members that bowed, and any break before the collapse.
 		if f.brk >= 0 && (f.onset >= 0 || colRow < 0 || f.brk < colRow) {
-			d.Events = append(d.Events, ev(EventBreak, f.m.ID, f.brk, describe(f.m)+" broke ("+f.brkDet+")"))
+			d.Events = append(d.Events, ev(EventBreak, f.m.ID, f.brk, describe(f.m, res)+" broke ("+f.brkDet+")"))
 		}
 	}
 	if colRow >= 0 {
@@ -701,9 +701,14 @@ func legOf(m *Member, in Input) string {
 }
 
 // describe names a member in words: "diagonal AB-d1 between levels 0 and 1".
-func describe(m *Member) string {
+// A leg whose buckled half-wave ran between two braced joints is named by
+// that panel ("leg B (leg-B) between joints B1 and B2"), not its whole height.
+func describe(m *Member, res *Result) string {
 	lv := ""
+	panel := legPanel(m, res)
 	switch {
+	case panel != "":
+		lv = panel
 	case m.Levels[0] >= 0 && m.Levels[1] > m.Levels[0]:
 		lv = fmt.Sprintf(" between levels %d and %d", m.Levels[0], m.Levels[1])
 	case m.Levels[0] >= 0:
@@ -727,6 +732,20 @@ func describe(m *Member) string {
 		return "brace " + m.ID
 	}
 	return m.ID
+}
+
+// legPanel returns " between joints X and Y" for a leg member that buckled
+// between braced points, else "".
+func legPanel(m *Member, res *Result) string {
+	if m.Kind != "leg" || res == nil {
+		return ""
+	}
+	for _, l := range res.Legs {
+		if l.Leg == m.Leg && l.Shape == ShapeBetweenBraces && l.Between[0] != "" {
+			return fmt.Sprintf(" between joints %s and %s", l.Between[0], l.Between[1])
+		}
+	}
+	return ""
 }
 
 func fmtTime(row int, res *Result, fps float64) string {
@@ -754,7 +773,7 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 	last := -1
 	switch {
 	case first != nil && !firstIsBreak:
-		s := fmt.Sprintf("%s began to bow at %s", describe(first.m), fmtTime(first.onset, res, fps))
+		s := fmt.Sprintf("%s began to bow at %s", describe(first.m, res), fmtTime(first.onset, res, fps))
 		last = first.onset
 		if first.brk >= 0 {
 			s += fmt.Sprintf(", broke at %s", fmtTime(first.brk, res, fps))
@@ -762,7 +781,7 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 		}
 		parts = append(parts, s)
 	case first != nil:
-		parts = append(parts, fmt.Sprintf("%s broke without bowing first at %s (%s)", describe(first.m), fmtTime(first.brk, res, fps), first.brkDet))
+		parts = append(parts, fmt.Sprintf("%s broke without bowing first at %s (%s)", describe(first.m, res), fmtTime(first.brk, res, fps), first.brkDet))
 		last = first.brk
 	}
 	if twRow >= 0 {

@@ -98,7 +98,7 @@ func TestDiagnoseScenarios(t *testing.T) {
 			},
 			// 0.5 % of the 282.2 mm leg is 1.41 mm, reached at 120 + 1.41/0.05 -> frame 149.
 			collapse: 230, first: "leg-A", onset: 149, mode: ModeLegBetweenBraces,
-			account: []string{"leg A (leg-A) between levels 0 and 4 began to bow at 0.1"},
+			account: []string{"leg A (leg-A) between joints A1 and A2 began to bow at 0.1"},
 		},
 		{
 			name: "tower twists, no member bows",
