@@ -266,7 +266,10 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 		}
 	case first != nil && !firstIsBreak && first.m.Kind == "brace":
 		d.Mode = ModeBraceBuckling
-	case firstIsBreak || colRow >= 0:
+	case (firstIsBreak || colRow >= 0) && bowVisible(res):
+		// A break or a collapse without a bow first points at a joint or
+		// the base only when a bow could have been seen: with no member
+		// marked between its ends, a buckling member looks the same.
 		d.Mode = ModeJointOrBase
 	}
 	if first != nil {
@@ -858,6 +861,9 @@ func adviceFor(mode string, first *Member, res *Result) []string {
 			a = append(a, "The legs were marked only at braced levels, so a leg buckling between two braces would not show: next time mark each leg at mid-panel too.")
 		}
 	default:
+		if !bowVisible(res) {
+			a = append(a, "No marked member has a point between its ends, so a member bowing before it broke could not be seen: mark the middle of each long brace and each leg at mid-panel as well as the joints.")
+		}
 		a = append(a, "The clip did not show how the tower failed: mark points on two faces (legs at every level and the middle of long braces), film from a camera azimuth of 15-35 degrees off a face, and keep the whole tower in frame.")
 	}
 	for _, lv := range res.Levels {
@@ -906,4 +912,21 @@ func legsOnlyAtLevels(res *Result) bool {
 		}
 	}
 	return seen
+}
+
+// bowVisible reports whether any member was marked with interior points and
+// has a bow figure in some frame, so that buckling could have been seen.
+func bowVisible(res *Result) bool {
+	for i := range res.Members {
+		m := &res.Members[i]
+		if len(m.Points) < 3 {
+			continue
+		}
+		for _, v := range m.BowMM {
+			if !math.IsNaN(v) {
+				return true
+			}
+		}
+	}
+	return false
 }

@@ -79,3 +79,47 @@ func BenchmarkMeasure(b *testing.B) {
 		Diagnose(res, in)
 	}
 }
+
+// A collapse with no bow first points at a joint only when a bow could have
+// been seen: with every member marked at its two ends alone, a buckling
+// member looks the same, so the mode is undetermined (common practice: a
+// label needs the evidence that would rule out the other labels).
+func TestCollapseWithoutVisibleBowIsUndetermined(t *testing.T) {
+	for _, tc := range []struct {
+		name     string
+		endsOnly bool
+		want     string
+	}{
+		{"members marked between their ends", false, ModeJointOrBase},
+		{"members marked at their ends only", true, ModeUndetermined},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			s := newScene(25)
+			s.frames = 30
+			m, tr := s.build()
+			if tc.endsOnly {
+				for i := range m.Members {
+					p := m.Members[i].Points
+					m.Members[i].Points = []string{p[0], p[len(p)-1]}
+				}
+			}
+			for i := 10; i < len(tr.Samples); i++ {
+				for j := range tr.Samples[i] {
+					tr.Samples[i][j] = tracks.Sample{X: math.NaN(), Y: math.NaN(), Lost: true}
+				}
+			}
+			in := Input{Marks: m, Tracks: tr, CaptureFPS: 1000}
+			res, err := Measure(in)
+			if err != nil {
+				t.Fatal(err)
+			}
+			d := Diagnose(res, in)
+			if d.CollapseRow != 10 || d.Mode != tc.want {
+				t.Errorf("collapse row %d mode %s, want 10 and %s", d.CollapseRow, d.Mode, tc.want)
+			}
+			if tc.endsOnly && !strings.Contains(strings.Join(d.Advice, " "), "between its ends") {
+				t.Errorf("advice does not ask for points between member ends: %q", d.Advice)
+			}
+		})
+	}
+}
