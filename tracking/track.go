@@ -97,14 +97,20 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		out.Frames = make([]int, 0, total)
 		out.Samples = make([][]tracks.Sample, 0, total)
 	}
+	// Decoding runs one frame ahead of tracking on its own goroutine (see
+	// readAhead), so the two overlap on a machine with more than one core.
+	var first *gocv.Mat
+	if haveFirst {
+		first = &img
+	}
+	rd := newReadAhead(src, first, rng.From, rng.To)
+	defer rd.stop()
 	for {
-		var frame int
-		var err error
-		if haveFirst {
-			frame, haveFirst = rng.From, false
-		} else {
-			frame, err = src.Read(&img)
+		fr, ok := rd.next()
+		if !ok {
+			break
 		}
+		frame, err := fr.frame, fr.err
 		if errors.Is(err, io.EOF) {
 			break
 		}
@@ -116,6 +122,7 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 			if herr := hooks.OnFrameError(fe); herr != nil {
 				return nil, herr
 			}
+			rd.release(fr)
 			continue
 		}
 		if err != nil {
@@ -124,17 +131,18 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		if rng.To >= 0 && frame > rng.To {
 			break
 		}
-		s, err := tr.Step(frame, img)
+		s, err := tr.Step(frame, *fr.img)
 		if err != nil {
 			return nil, fmt.Errorf("track %s: %w", info.Path, err)
 		}
 		out.Frames = append(out.Frames, frame)
 		out.Samples = append(out.Samples, s)
 		if hooks.OnFrame != nil {
-			if err := hooks.OnFrame(frame, img); err != nil {
+			if err := hooks.OnFrame(frame, *fr.img); err != nil {
 				return nil, err
 			}
 		}
+		rd.release(fr)
 		if hooks.Progress != nil {
 			hooks.Progress(len(out.Frames), total)
 		}
@@ -143,4 +151,103 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		return nil, fmt.Errorf("track %s: no frames from %d on", info.Path, rng.From)
 	}
 	return out, nil
+}
+
+// readDepth is how many decoded frames may wait for the tracker; with the
+// frame being decoded and the one being tracked, readDepth+2 frames are held.
+const readDepth = 2
+
+// readFrame is one result of Source.Read.
+type readFrame struct {
+	frame int
+	err   error
+	img   *gocv.Mat
+}
+
+// readAhead reads frames from a source on its own goroutine into a small
+// pool of Mats, so that decoding the next frame overlaps tracking this one.
+// Frames arrive in the order Read returned them. It stops after io.EOF, an
+// error that is not a *capture.FrameError, or a frame past last (last < 0:
+// no limit), and when stop is called; stop waits until the goroutine no
+// longer touches the source.
+type readAhead struct {
+	out  chan readFrame
+	free chan *gocv.Mat
+	quit chan struct{}
+	done chan struct{}
+	mats []*gocv.Mat
+}
+
+// newReadAhead starts reading. first, when not nil, is frame firstFrame
+// already read: it is handed out first, and not closed by stop.
+func newReadAhead(src capture.Source, first *gocv.Mat, firstFrame, last int) *readAhead {
+	r := &readAhead{
+		out:  make(chan readFrame, readDepth),
+		free: make(chan *gocv.Mat, readDepth+2),
+		quit: make(chan struct{}),
+		done: make(chan struct{}),
+	}
+	for i := 0; i < readDepth+2; i++ {
+		m := gocv.NewMat()
+		r.mats = append(r.mats, &m)
+		r.free <- &m
+	}
+	go func() {
+		defer close(r.done)
+		defer close(r.out)
+		if first != nil {
+			select {
+			case r.out <- readFrame{frame: firstFrame, img: first}:
+			case <-r.quit:
+				return
+			}
+		}
+		for {
+			var m *gocv.Mat
+			select {
+			case m = <-r.free:
+			case <-r.quit:
+				return
+			}
+			f, err := src.Read(m)
+			select {
+			case r.out <- readFrame{frame: f, err: err, img: m}:
+			case <-r.quit:
+				return
+			}
+			var fe *capture.FrameError
+			if err != nil && !errors.As(err, &fe) {
+				return
+			}
+			if last >= 0 && f > last {
+				return
+			}
+		}
+	}()
+	return r
+}
+
+// next returns the next frame read; false when reading has stopped.
+func (r *readAhead) next() (readFrame, bool) {
+	fr, ok := <-r.out
+	return fr, ok
+}
+
+// release gives a frame's Mat back for reading into.
+func (r *readAhead) release(fr readFrame) {
+	for _, m := range r.mats {
+		if m == fr.img {
+			r.free <- m
+			return
+		}
+	}
+}
+
+// stop ends reading, waits for the goroutine and frees the Mats.
+func (r *readAhead) stop() {
+	close(r.quit)
+	<-r.done
+	for _, m := range r.mats {
+		m.Close()
+	}
 }
