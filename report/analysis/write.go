@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -255,21 +256,10 @@ func (w *writer) plots() error {
 			return err
 		}
 	}
-	var bow []plots.Series
-	for _, m := range w.meas.Members {
-		if m.Kind != marks.KindBrace && m.ID != w.res.FirstMember {
-			continue
-		}
-		bf := head(m.BowFrac)
-		y := make([]float64, len(bf))
-		for i, v := range bf {
-			y[i] = 100 * v
-		}
-		bow = append(bow, plots.Series{Name: m.ID, X: ct[:len(y)], Y: y})
-	}
+	bow := bowSeries(w.meas.Members, w.res.FirstMember, ct, head)
 	if len(bow) > 0 {
-		if err := w.plot(plots.Chart{Title: "Bow of each brace", XLabel: "real time (s)", YLabel: "bow (% of length)", Series: bow, Marks: w.eventMarks("onset", "break")},
-			"bow", "Bow of each brace (sideways deflection of its middle as a share of its length) with member onsets and breaks marked"+after); err != nil {
+		if err := w.plot(plots.Chart{Title: "Bow of each brace", XLabel: "real time (s)", YLabel: "bow (% of length)", Series: bow, Marks: w.eventMarks("onset", "break"), LegendLeft: true},
+			"bow", fmt.Sprintf("Bow of each brace (sideways deflection of its middle as a share of its length) with member onsets and breaks marked; coloured: the first member and the %d braces that bowed most, grey: the others", bowColoured)+after); err != nil {
 			return err
 		}
 	}
@@ -483,4 +473,65 @@ func nonEmpty(s, alt string) string {
 		return alt
 	}
 	return s
+}
+
+// bowColoured is how many braces, besides the first member, get a colour and
+// a legend entry in the bow plot; the rest are drawn grey behind them.
+const bowColoured = 4
+
+// bowSeries returns the bow plot's lines: every brace (and the first member),
+// the first member and the braces with the largest bow before the cut in
+// colour and named, the others faint, so a tower with many braces still gives
+// a readable legend.
+func bowSeries(members []measure.Member, first string, ct []float64, head func([]float64) []float64) []plots.Series {
+	type cand struct {
+		s   plots.Series
+		max float64
+	}
+	var cs []cand
+	for _, m := range members {
+		if m.Kind != marks.KindBrace && m.ID != first {
+			continue
+		}
+		bf := head(m.BowFrac)
+		y := make([]float64, len(bf))
+		peak := 0.0
+		for i, v := range bf {
+			y[i] = 100 * v
+			if !math.IsNaN(v) && math.Abs(v) > peak {
+				peak = math.Abs(v)
+			}
+		}
+		if m.ID == first {
+			peak = math.Inf(1)
+		}
+		cs = append(cs, cand{plots.Series{Name: m.ID, X: ct[:len(y)], Y: y}, peak})
+	}
+	order := make([]int, len(cs))
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(a, b int) bool { return cs[order[a]].max > cs[order[b]].max })
+	coloured := make(map[int]bool)
+	limit := bowColoured
+	if first != "" {
+		limit++
+	}
+	for _, i := range order[:min(limit, len(order))] {
+		coloured[i] = true
+	}
+	// Faint lines first, so the coloured ones are drawn over them.
+	var out []plots.Series
+	for i, c := range cs {
+		if !coloured[i] {
+			c.s.Name, c.s.Faint = "", true
+			out = append(out, c.s)
+		}
+	}
+	for _, i := range order {
+		if coloured[i] {
+			out = append(out, cs[i].s)
+		}
+	}
+	return out
 }

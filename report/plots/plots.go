@@ -27,6 +27,9 @@ type Series struct {
 	X, Y []float64
 	// Dots draws a dot at each point as well as the line.
 	Dots bool
+	// Faint draws the line thin and grey, as background to the coloured
+	// lines; it takes no colour from the palette.
+	Faint bool
 }
 
 // Len returns the number of points.
@@ -55,6 +58,8 @@ type Chart struct {
 	Marks []Mark
 	// WidthCM and HeightCM are the figure size; default 16 x 9 cm.
 	WidthCM, HeightCM float64
+	// LegendLeft puts the legend at the top left instead of the top right.
+	LegendLeft bool
 }
 
 // Save writes the chart as dir/name.png and dir/name.svg and returns the two
@@ -108,12 +113,20 @@ func (c Chart) plot() (*plot.Plot, error) {
 	p.Y.Label.Text = c.YLabel
 	p.Add(plotter.NewGrid())
 	p.Legend.Top = true
+	p.Legend.Left = c.LegendLeft
 	any := false
-	for i, s := range c.Series {
+	colour := 0
+	for _, s := range c.Series {
 		if len(s.X) != len(s.Y) {
 			return nil, fmt.Errorf("series %q: %d x values, %d y values", s.Name, len(s.X), len(s.Y))
 		}
-		col := plotutil.Color(i)
+		var col color.Color = color.Gray{Y: 175}
+		width := vg.Points(0.7)
+		if !s.Faint {
+			col = plotutil.Color(colour)
+			colour++
+			width = vg.Points(1.2)
+		}
 		first := true
 		for _, seg := range segments(s) {
 			any = true
@@ -122,7 +135,7 @@ func (c Chart) plot() (*plot.Plot, error) {
 				return nil, fmt.Errorf("series %q: %w", s.Name, err)
 			}
 			l.Color = col
-			l.Width = vg.Points(1.2)
+			l.Width = width
 			p.Add(l)
 			if s.Dots {
 				sc, err := plotter.NewScatter(seg)
