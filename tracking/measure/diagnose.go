@@ -45,6 +45,11 @@ const (
 	// SustainRows is how many consecutive tracked rows must stay above the
 	// floor to confirm an onset.
 	SustainRows = 5
+	// JumpRows is the most rows over which a bow may rise from under a
+	// quarter of the floor to the floor and still count as a jump (a break
+	// or a joint letting go) rather than buckling (common practice: a snap
+	// is spread over a few frames by motion blur and tracking).
+	JumpRows = 5
 	// BreakStrainPct is the smallest one-frame change of a member's chord
 	// length, percent, taken as a break (with eight standard deviations of
 	// the baseline's frame-to-frame changes).
@@ -138,6 +143,13 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 		}
 		f.onset, f.change, f.onsetDet = bowOnset(m, nb, end)
 		f.brk, f.brkDet = memberBreak(m, in, nb, f.onset, n)
+		if f.onset < 0 {
+			// A bow that jumped to the buckling floor without buckling
+			// first is the member breaking or coming off its joint.
+			if r, det := bowJump(m, end); r >= 0 && (f.brk < 0 || r < f.brk) {
+				f.brk, f.brkDet = r, det
+			}
+		}
 		finds = append(finds, f)
 	}
 
@@ -333,10 +345,17 @@ func bowOnset(m *Member, nb, end int) (onset, change int, detail string) {
 		if f < 0 {
 			return -1, -1, ""
 		}
-		// A bow that went from under a quarter of the floor to over it in
-		// one frame jumped: that is a break (or a slipped joint), not buckling.
-		if p := prevValid(x, f); p >= 0 && x[p] < 0.25*floor {
-			from = f + 1
+		// A bow that rose from under a quarter of the floor to over it
+		// within JumpRows rows, or doubled in one frame, jumped: that is a
+		// break or a joint letting go (spread over a few frames by blur
+		// and tracking), not buckling, which grows with the load. The
+		// whole run above the floor is then passed over, so the frame
+		// after the jump is not taken as an onset either.
+		if bowJumped(x, f, floor) {
+			from = nextBelow(x, f, floor)
+			if from < 0 {
+				return -1, -1, ""
+			}
 			continue
 		}
 		alarm, _ := c.ChangePoint(x, f)
@@ -347,6 +366,70 @@ func bowOnset(m *Member, nb, end int) (onset, change int, detail string) {
 		_, start := CUSUM{Target: mu, K: CusumCPK * sigma}.ChangePoint(x, f)
 		return f, start, fmt.Sprintf("bow reached %.2f mm, 0.5%% of its %.0f mm length, and stayed above it for %d frames; it had been growing since frame row %d (Page's CUSUM on the bow: baseline %.3f mm, k = %.3f mm, h = %.3f mm, alarm at row %d)", floor, m.LengthMM, SustainRows, start, mu, c.K, c.H, alarm)
 	}
+}
+
+// bowJumped reports whether the bow reached row f (the first of a run at
+// or above floor) by a jump: from under a quarter of the floor within
+// JumpRows tracked rows, or from under half its value in one frame.
+func bowJumped(x []float64, f int, floor float64) bool {
+	p := f
+	for k := 0; k < JumpRows; k++ {
+		if p = prevValid(x, p); p < 0 {
+			return false
+		}
+		if k == 0 && x[p] < 0.5*x[f] {
+			return true
+		}
+		if x[p] < 0.25*floor {
+			return true
+		}
+	}
+	return false
+}
+
+// bowJump finds the first run of the bow at or above the buckling floor
+// before row end that the bow reached by a jump (see bowJumped), and returns
+// the row where the jump began: the first row within JumpRows before the
+// run with a one-frame rise of at least 15 % of the floor.
+func bowJump(m *Member, end int) (int, string) {
+	if m.LengthMM <= 0 {
+		return -1, ""
+	}
+	floor := OnsetFloorFrac * m.LengthMM
+	x := m.BowMM[:min(end, len(m.BowMM))]
+	for from := 0; from >= 0; from = nextBelow(x, from, floor) {
+		f := sustainedAbove(x, floor, from)
+		if f < 0 {
+			return -1, ""
+		}
+		if !bowJumped(x, f, floor) {
+			from = f
+			continue
+		}
+		start := f
+		for r := max(f-JumpRows+1, 1); r <= f; r++ {
+			if !math.IsNaN(x[r]) && !math.IsNaN(x[r-1]) && x[r]-x[r-1] >= 0.15*floor {
+				start = r
+				break
+			}
+		}
+		p := prevValid(x, start)
+		if p < 0 {
+			p = start
+		}
+		return start, fmt.Sprintf("bow jumped from %.2f mm to %.2f mm within %d frames, past 0.5%% of its %.0f mm length without growing first", x[p], x[f], f-p, m.LengthMM)
+	}
+	return -1, ""
+}
+
+// nextBelow returns the first tracked row after f with x under level, or -1.
+func nextBelow(x []float64, f int, level float64) int {
+	for i := f + 1; i < len(x); i++ {
+		if !math.IsNaN(x[i]) && x[i] < level {
+			return i
+		}
+	}
+	return -1
 }
 
 // sustainedAbove returns the first row from which SustainRows consecutive

@@ -101,7 +101,8 @@
 //   - brace_buckling: the first member to bow is a brace.
 //   - joint_or_base: no member bowed, but one broke or lost its track before
 //     the collapse, or the tower collapsed without warning: a glue joint or
-//     the base let go. This needs at least one member marked between its
+//     the base let go (a bow that reaches 0.5 % within JumpRows frames
+//     without growing first counts as a break). This needs at least one member marked between its
 //     ends (a bow that could have been seen); otherwise the failure is
 //     undetermined, since a buckling member would look the same.
 //   - undetermined: nothing of the above was seen.

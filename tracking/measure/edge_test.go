@@ -123,3 +123,57 @@ func TestCollapseWithoutVisibleBowIsUndetermined(t *testing.T) {
 		})
 	}
 }
+
+// A bow that reaches the buckling floor by a jump over a few frames (a joint
+// letting go, a snap spread by blur and tracking) is not a buckling onset,
+// nor is the frame after the jump; a bow that grows smoothly is (common
+// practice: elastic buckling grows with the load, a release is sudden).
+func TestBowOnsetIgnoresJumps(t *testing.T) {
+	const n, length = 400, 100.0 // rows, mm; floor 0.5 mm
+	floor := OnsetFloorFrac * length
+	ramp := func(f func(r int) float64) *Member {
+		m := &Member{ID: "AB-d1", Kind: "brace", LengthMM: length, BowMM: make([]float64, n)}
+		for r := range m.BowMM {
+			m.BowMM[r] = f(r) + 0.002*math.Sin(float64(r)*1.7) // a little tracker noise
+		}
+		return m
+	}
+	for _, tc := range []struct {
+		name  string
+		bow   func(r int) float64
+		onset bool
+	}{
+		{"smooth exponential growth", func(r int) float64 { return 0.01 * math.Exp(float64(r)/80) }, true},
+		{"slow creep to a fifth of the floor, then a jump over 4 frames", func(r int) float64 {
+			switch {
+			case r < 300:
+				return 0.2 * floor * float64(r) / 300 // a fifth of the floor, slowly
+			case r < 304:
+				return 0.2*floor + (1.5*floor-0.2*floor)*float64(r-299)/5
+			}
+			return 1.5 * floor
+		}, false},
+		{"flat then a step within three frames", func(r int) float64 {
+			if r < 300 {
+				return 0.02
+			}
+			return math.Min(2*floor, 0.02+float64(r-299)*0.7*floor)
+		}, false},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			m := ramp(tc.bow)
+			onset, _, det := bowOnset(m, baselineRows(n), n)
+			if (onset >= 0) != tc.onset {
+				t.Errorf("onset row %d (%s), want onset %v", onset, det, tc.onset)
+			}
+			// Without an onset the jump is the break, where the rise began.
+			r, det := bowJump(m, n)
+			if tc.onset && r >= 0 {
+				t.Errorf("smooth growth read as a jump at row %d (%s)", r, det)
+			}
+			if !tc.onset && (r < 300 || r > 302) {
+				t.Errorf("jump at row %d (%s), want 300-302", r, det)
+			}
+		})
+	}
+}
