@@ -278,10 +278,13 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 		}
 	case first != nil && !firstIsBreak && first.m.Kind == "brace":
 		d.Mode = ModeBraceBuckling
-	case (firstIsBreak || colRow >= 0) && bowVisible(res):
+	case (firstIsBreak || (colRow >= 0 && top >= 0)) && bowVisible(res):
 		// A break or a collapse without a bow first points at a joint or
 		// the base only when a bow could have been seen: with no member
-		// marked between its ends, a buckling member looks the same.
+		// marked between its ends, a buckling member looks the same. A
+		// collapse without any warning also needs a twist that could
+		// have been seen: from a camera square to a face, a tower
+		// twisting as a whole shows no twist at all.
 		d.Mode = ModeJointOrBase
 	}
 	if first != nil {

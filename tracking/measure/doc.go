@@ -102,8 +102,10 @@
 //   - joint_or_base: no member bowed, but one broke or lost its track before
 //     the collapse, or the tower collapsed without warning: a glue joint or
 //     the base let go (a bow that reaches 0.5 % within JumpRows frames
-//     without growing first counts as a break). This needs at least one member marked between its
-//     ends (a bow that could have been seen); otherwise the failure is
-//     undetermined, since a buckling member would look the same.
+//     without growing first counts as a break). This needs at least one
+//     member marked between its ends (a bow that could have been seen),
+//     and a collapse without any warning also needs a level whose twist
+//     is observable; otherwise the failure is undetermined, since a
+//     buckling member or a twisting tower would look the same.
 //   - undetermined: nothing of the above was seen.
 package measure

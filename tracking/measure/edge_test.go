@@ -87,14 +87,21 @@ func BenchmarkMeasure(b *testing.B) {
 func TestCollapseWithoutVisibleBowIsUndetermined(t *testing.T) {
 	for _, tc := range []struct {
 		name     string
+		azDeg    float64
 		endsOnly bool
 		want     string
 	}{
-		{"members marked between their ends", false, ModeJointOrBase},
-		{"members marked at their ends only", true, ModeUndetermined},
+		{"members marked between their ends", 25, false, ModeJointOrBase},
+		{"members marked at their ends only", 25, true, ModeUndetermined},
+		// Square to face A-B no twist can be seen, so a tower twisting
+		// as a whole is not ruled out.
+		{"camera square to a face", 0, false, ModeUndetermined},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			s := newScene(25)
+			s := newScene(tc.azDeg)
+			if tc.azDeg == 0 {
+				s.legs, s.faces = []string{"A", "B"}, []string{"AB"} // face B-C is seen edge-on
+			}
 			s.frames = 30
 			m, tr := s.build()
 			if tc.endsOnly {
