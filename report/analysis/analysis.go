@@ -135,6 +135,11 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 	if err := m.Validate(); err != nil {
 		return nil, err
 	}
+	// Marks the measurements cannot use (no scale, no tower block to take
+	// one from) fail before minutes of tracking, naming the marks file.
+	if err := measure.CheckMarks(m); err != nil {
+		return nil, &marks.Error{Path: cfg.Marks, Err: err}
+	}
 
 	// The load log first: a bad log should fail before minutes of tracking.
 	var log *loadlog.Log
@@ -246,7 +251,7 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 	in := measure.Input{Marks: m, Tracks: tr, CaptureFPS: tb.CaptureFPS, Energy: energy}
 	meas, err := measure.Measure(in)
 	if err != nil {
-		return nil, fmt.Errorf("measure: %w", err)
+		return nil, err // already names the measure step
 	}
 	diag := measure.Diagnose(meas, in)
 	for _, n := range meas.Notes {

@@ -18,6 +18,7 @@ import (
 	"github.com/failframe/failframe/report"
 	"github.com/failframe/failframe/report/internal/browsertest"
 	"github.com/failframe/failframe/report/loadlog"
+	"github.com/failframe/failframe/tracking/marks"
 )
 
 // A short invented test shared by the tests of this package: a Z-braced
@@ -297,6 +298,37 @@ func TestRunRejectsBadLogBeforeTracking(t *testing.T) {
 	}
 	if time.Since(start) > 5*time.Second {
 		t.Error("the bad log was found only after tracking")
+	}
+	if _, err := os.Stat(cfg.Out); !os.IsNotExist(err) {
+		t.Error("report folder created for a failed run")
+	}
+}
+
+// Marks with no scale and no tower block give no millimetres: refused before
+// tracking as a marks error naming the file (exit status 3 in the CLI).
+func TestRunRejectsMarksWithoutScaleBeforeTracking(t *testing.T) {
+	dir, _ := testClip(t)
+	tmp := t.TempDir()
+	m, err := marks.Load(filepath.Join(dir, synth.MarksFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	m.Scale, m.Tower = nil, nil
+	m.Clip = ""
+	bad := filepath.Join(tmp, "marks.yaml")
+	if err := marks.Save(bad, m); err != nil {
+		t.Fatal(err)
+	}
+	cfg := config(dir, filepath.Join(tmp, "report"))
+	cfg.Marks = bad
+	start := time.Now()
+	_, err = Run(cfg, Progress{})
+	var me *marks.Error
+	if !errors.As(err, &me) || me.Path != bad || !strings.Contains(err.Error(), "no scale") {
+		t.Fatalf("err = %v, want a marks error naming %s and the missing scale", err, bad)
+	}
+	if time.Since(start) > 5*time.Second {
+		t.Error("the unusable marks were found only after tracking")
 	}
 	if _, err := os.Stat(cfg.Out); !os.IsNotExist(err) {
 		t.Error("report folder created for a failed run")

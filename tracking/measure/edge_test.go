@@ -184,3 +184,27 @@ func TestBowOnsetIgnoresJumps(t *testing.T) {
 		})
 	}
 }
+
+// Marks without a scale entry and without a tower block to take one from are
+// refused before any tracking; a tower block alone gives the scale (common
+// practice: a length needs a known distance in the picture).
+func TestCheckMarks(t *testing.T) {
+	s := newScene(25)
+	s.frames = 3
+	m, _ := s.build()
+	if err := CheckMarks(m); err != nil {
+		t.Fatalf("full marks refused: %v", err)
+	}
+	m.Scale = nil
+	if err := CheckMarks(m); err != nil {
+		t.Errorf("tower block alone refused: %v", err)
+	}
+	m.Tower = nil
+	for i := range m.Points {
+		m.Points[i].PlanMM = nil
+	}
+	err := CheckMarks(m)
+	if err == nil || !strings.Contains(err.Error(), "no scale") || strings.HasPrefix(err.Error(), "measure:") {
+		t.Errorf("no scale and no tower: %v", err)
+	}
+}

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 
 	"github.com/failframe/failframe/tracking/marks"
 	"github.com/failframe/failframe/tracking/tracks"
@@ -394,6 +395,22 @@ func Measure(in Input) (*Result, error) {
 	res.Members = g.members(res.Levels)
 	panelAwareLegBows(res)
 	return res, nil
+}
+
+// CheckMarks reports what in a marks file keeps Measure from working (no
+// scale and no tower block to take one from) without any tracks, so a
+// caller can refuse the marks before tracking. The message does not name the
+// marks file; the caller does.
+func CheckMarks(m *marks.File) error {
+	ids := make([]string, len(m.Points))
+	for i, p := range m.Points {
+		ids[i] = p.ID
+	}
+	_, err := Measure(Input{Marks: m, Tracks: &tracks.Tracks{IDs: ids}})
+	if err != nil {
+		return errors.New(strings.TrimPrefix(err.Error(), "measure: "))
+	}
+	return nil
 }
 
 // scale returns mm per pixel from the marks' scale, or from two level points
