@@ -76,6 +76,7 @@ func Parse(path string, data []byte) (*File, error) {
 		return nil, lineError(path, err)
 	}
 	attachLines(&root, &f)
+	f.path = path
 	if err := f.Validate(); err != nil {
 		var me *Error
 		if errors.As(err, &me) {

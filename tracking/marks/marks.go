@@ -41,6 +41,8 @@ type File struct {
 
 	// keyLines holds the YAML line of each top-level key (nil when built in code).
 	keyLines map[string]int
+	// path is the file the marks were parsed from, for error messages ("" when built in code).
+	path string
 }
 
 // line returns the YAML line of a top-level key, or 0.

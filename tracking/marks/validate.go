@@ -9,6 +9,19 @@ import (
 // Validate checks the rules that need no clip: unique ids, members naming
 // known points, a usable scale, legs A-D, levels inside the tower block.
 func (f *File) Validate() error {
+	return f.withPath(f.validate())
+}
+
+// withPath names the file an error from Load came from, when it has no path.
+func (f *File) withPath(err error) error {
+	var me *Error
+	if f.path != "" && errors.As(err, &me) && me.Path == "" {
+		me.Path = f.path
+	}
+	return err
+}
+
+func (f *File) validate() error {
 	if f.ReferenceFrame < 0 {
 		return &Error{Line: f.line("reference_frame"), Err: fmt.Errorf("reference_frame %d is negative", f.ReferenceFrame)}
 	}
@@ -88,11 +101,12 @@ func (f *File) Validate() error {
 	return nil
 }
 
-// CheckBounds reports the first point outside a frame of the given size.
+// CheckBounds reports the first point outside a frame of the given size,
+// naming the file the marks were loaded from.
 func (f *File) CheckBounds(width, height int) error {
 	for _, p := range f.Points {
 		if p.PX[0] < 0 || p.PX[1] < 0 || p.PX[0] > float64(width-1) || p.PX[1] > float64(height-1) {
-			return &Error{Line: p.Line, Err: fmt.Errorf("point %s at (%.2f, %.2f) px is outside the %dx%d frame", p.ID, p.PX[0], p.PX[1], width, height)}
+			return &Error{Path: f.path, Line: p.Line, Err: fmt.Errorf("point %s at (%.2f, %.2f) px is outside the %dx%d frame", p.ID, p.PX[0], p.PX[1], width, height)}
 		}
 	}
 	return nil

@@ -159,6 +159,16 @@ func TestCheckBounds(t *testing.T) {
 		if !errors.As(err, &me) || me.Line != c.line || !strings.Contains(err.Error(), "point "+c.id) || !strings.Contains(err.Error(), "outside") {
 			t.Errorf("%dx%d: error %v, want point %s outside the frame on line %d", c.w, c.h, err, c.id, c.line)
 		}
+		// The error names the file the marks came from, so every caller's
+		// message says which file to fix.
+		if me != nil && (me.Path != "m.yaml" || !strings.HasPrefix(err.Error(), "marks m.yaml line ")) {
+			t.Errorf("%dx%d: error %q does not name the marks file m.yaml", c.w, c.h, err)
+		}
+	}
+	// A check again after an edit in code also names the file.
+	f.Points[0].ID = ""
+	if err := f.Validate(); err == nil || !strings.HasPrefix(err.Error(), "marks m.yaml line ") {
+		t.Errorf("Validate after an edit: %v, want an error naming m.yaml", err)
 	}
 }
 
