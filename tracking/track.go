@@ -38,7 +38,9 @@ type Hooks struct {
 // Track follows the points of m through src over rng: it reads the reference
 // frame m.ReferenceFrame, then every frame of the range once. A frame that
 // cannot be decoded stops tracking with an error naming it, unless
-// hooks.OnFrameError lets it be skipped.
+// hooks.OnFrameError lets it be skipped. The next frames are decoded on
+// another goroutine while one is tracked, so the hooks must not use src; it
+// is free again when Track returns.
 func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hooks) (*tracks.Tracks, error) {
 	info := src.Info()
 	if rng.From < 0 {
