@@ -125,8 +125,8 @@ to failure.` + exitHelp,
 					return &FlagError{Err: fmt.Errorf("--%s: %w", name, err)}
 				}
 			}
-			if c.CaptureFPS < 0 || math.IsNaN(c.CaptureFPS) {
-				return &FlagError{Err: fmt.Errorf("--capture-fps %g: want a rate above 0", c.CaptureFPS)}
+			if err := checkRateFlags(cmd, c.CaptureFPS, 0); err != nil {
+				return err
 			}
 			return runF(opts)
 		},

@@ -62,6 +62,13 @@ func TestAnalyzeArgsToOptions(t *testing.T) {
 		{name: "bad from", args: append(base, "--from", "soon"), code: ExitUsage, err: "--from"},
 		{name: "fractional to", args: append(base, "--to", "12.5"), code: ExitUsage, err: "--to"},
 		{name: "negative mass", args: append(base, "--mass-g", "-2"), code: ExitUsage, err: "--mass-g"},
+		// A capture rate given on the command line must be usable: zero,
+		// negative, infinite and absurdly high rates are usage errors naming
+		// the flag (not a clip error after opening it).
+		{name: "zero rate", args: append(base, "--capture-fps", "0"), code: ExitUsage, err: "--capture-fps"},
+		{name: "negative rate", args: append(base, "--capture-fps", "-5"), code: ExitUsage, err: "--capture-fps"},
+		{name: "infinite rate", args: append(base, "--capture-fps", "inf"), code: ExitUsage, err: "--capture-fps"},
+		{name: "rate over a million", args: append(base, "--capture-fps", "2e6"), code: ExitUsage, err: "--capture-fps"},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
@@ -93,7 +100,7 @@ func TestAnalyzeArgsToOptions(t *testing.T) {
 func TestAnalyzeBadInputExits3(t *testing.T) {
 	dir := t.TempDir()
 	marksPath := filepath.Join(dir, "m.yaml")
-	os.WriteFile(marksPath, []byte("reference_frame: 0\npoints:\n  - id: A0\n    px: [10, 20]\n  - id: A1\n    px: [10, 5]\n"), 0o644)
+	os.WriteFile(marksPath, []byte("reference_frame: 0\nscale: {from: A0, to: A1, mm: 15}\npoints:\n  - id: A0\n    px: [10, 20]\n  - id: A1\n    px: [10, 5]\n"), 0o644)
 	badLog := filepath.Join(dir, "bad.csv")
 	os.WriteFile(badLog, []byte("time_s,load_g\n0,1\n1,x\n2,y\n3,z\n"), 0o644)
 	existing := filepath.Join(dir, "old-report")

@@ -13,6 +13,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"github.com/failframe/failframe/capture"
 	"github.com/failframe/failframe/report/review"
 )
 
@@ -90,8 +91,10 @@ func (o *reviewOptions) check() error {
 	if o.Port < 0 || o.Port > 65535 {
 		return &FlagError{Err: fmt.Errorf("--port %d is not a port (0-65535)", o.Port)}
 	}
-	if o.CaptureFPS < 0 {
-		return &FlagError{Err: fmt.Errorf("--capture-fps %g must be positive", o.CaptureFPS)}
+	if o.CaptureFPS != 0 { // 0: not given
+		if err := capture.CheckRate(o.CaptureFPS); err != nil {
+			return &FlagError{Err: fmt.Errorf("--capture-fps: %w", err)}
+		}
 	}
 	if o.Listen != "" {
 		if _, port, err := net.SplitHostPort(o.Listen); err == nil {

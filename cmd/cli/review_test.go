@@ -37,6 +37,8 @@ func TestReviewArgsToOptions(t *testing.T) {
 		{name: "two clips", args: []string{"a.avi", "b.avi"}, code: ExitUsage, err: "accepts 1 arg"},
 		{name: "port too big", args: []string{"c.avi", "--port", "70000"}, code: ExitUsage, err: "--port 70000"},
 		{name: "negative rate", args: []string{"c.avi", "--capture-fps", "-5"}, code: ExitUsage, err: "--capture-fps"},
+		{name: "rate over a million", args: []string{"c.avi", "--capture-fps", "2e6"}, code: ExitUsage, err: "--capture-fps"},
+		{name: "infinite rate", args: []string{"c.avi", "--capture-fps", "inf"}, code: ExitUsage, err: "--capture-fps"},
 		{name: "two ports", args: []string{"c.avi", "--listen", "0.0.0.0:80", "--port", "81"}, code: ExitUsage, err: "drop --port"},
 		{name: "listen not an address", args: []string{"c.avi", "--listen", "my laptop"}, code: ExitUsage, err: "HOST or HOST:PORT"},
 		{name: "bad rate value", args: []string{"c.avi", "--capture-fps", "fast"}, code: ExitUsage, err: "invalid argument"},
