@@ -26,9 +26,39 @@ var imageExts = map[string]string{
 // lastNumber finds the last run of digits in a file name (without extension).
 var lastNumber = regexp.MustCompile(`[0-9]+`)
 
+// frameColumn returns which run of digits in the file names numbers the
+// frames: the first position whose values are all different, when every
+// name has the same count of runs; -1 (use the last run) otherwise.
+func frameColumn(n int, runs func(i int) []string) int {
+	if n < 2 {
+		return -1
+	}
+	k := len(runs(0))
+	for i := 1; i < n; i++ {
+		if len(runs(i)) != k {
+			return -1
+		}
+	}
+	for col := 0; col < k; col++ {
+		seen := make(map[string]bool, n)
+		distinct := true
+		for i := 0; i < n && distinct; i++ {
+			v := strings.TrimLeft(runs(i)[col], "0")
+			distinct = !seen[v]
+			seen[v] = true
+		}
+		if distinct {
+			return col
+		}
+	}
+	return -1
+}
+
 // imageSource reads a folder of numbered stills, one file per frame. The
 // number in each file name (its last run of digits) is its frame number,
-// counted from the lowest; a number with no file is a missing frame.
+// counted from the lowest; a number with no file is a missing frame. When
+// the names hold several numbers, the first one that differs between all
+// files is the frame number.
 type imageSource struct {
 	info  Info
 	files []string // by frame number; "" where the numbering skips
@@ -55,6 +85,7 @@ func openImages(dir string, opt Options) (Source, error) {
 	type still struct {
 		name string
 		num  *big.Int
+		runs []string
 	}
 	var stills []still
 	formats := map[string]bool{}
@@ -72,11 +103,19 @@ func openImages(dir string, opt Options) (Source, error) {
 			return nil, &ClipError{Path: dir, Err: fmt.Errorf("image %s has no frame number in its name", e.Name())}
 		}
 		n, _ := new(big.Int).SetString(digits[len(digits)-1], 10)
-		stills = append(stills, still{e.Name(), n})
+		stills = append(stills, still{e.Name(), n, digits})
 		formats[format] = true
 	}
 	if len(stills) == 0 {
 		return nil, &ClipError{Path: dir, Err: errors.New("no PNG, JPEG or TIFF images in the folder")}
+	}
+	// Names with several numbers (a camera number, a date, a time stamp
+	// after the frame number as in frame-000123_t0.128125s.png): the frame
+	// number is the first run of digits that differs between all files.
+	if col := frameColumn(len(stills), func(i int) []string { return stills[i].runs }); col >= 0 {
+		for i := range stills {
+			stills[i].num, _ = new(big.Int).SetString(stills[i].runs[col], 10)
+		}
 	}
 	sort.Slice(stills, func(i, j int) bool { return stills[i].num.Cmp(stills[j].num) < 0 })
 	for i := 1; i < len(stills); i++ {

@@ -177,3 +177,36 @@ func TestImageFolderErrors(t *testing.T) {
 		})
 	}
 }
+
+// Stills named with more than one number: a camera number before the frame
+// number and a time stamp after it, as `failframe frames` names its exports
+// (frame-000123_t0.128125s.png). The frame number is the first number that
+// differs between the files; order and content are checked against ffmpeg's
+// MD5 of each frame.
+func TestImageFolderNamesWithTimeStamps(t *testing.T) {
+	dir, sums := stillsDir(t, "frame-%06d", 0, 12, "png")
+	for i := range sums {
+		old := filepath.Join(dir, fmt.Sprintf("frame-%06d.png", i))
+		name := fmt.Sprintf("cam2_frame-%06d_t%.6fs.png", i, float64(i)/960)
+		if err := os.Rename(old, filepath.Join(dir, name)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	src, err := Open(dir, Options{ImageFPS: 30})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer src.Close()
+	if info := src.Info(); info.FrameCount != 12 || len(info.Warnings) != 0 {
+		t.Fatalf("info %+v", info)
+	}
+	good, bad := readAll(t, src)
+	if len(good) != 12 || len(bad) != 0 {
+		t.Fatalf("good %d bad %v", len(good), bad)
+	}
+	for i, want := range sums {
+		if good[i] != want {
+			t.Errorf("frame %d: md5 %s, ffmpeg's frame %d is %s", i, good[i], i, want)
+		}
+	}
+}
