@@ -29,6 +29,34 @@ func (c *Pinhole) Project(x, y, z float64) (u, v float64, ok bool) {
 	return u, v, true
 }
 
+// Azimuth returns the camera azimuth in degrees (the direction from the tower
+// axis toward the camera centre, counter-clockwise seen from above from face
+// A-B's outward normal, as in the marks file); ok is false for a nil camera
+// or one whose centre cannot be found or sits on the tower axis.
+func (c *Pinhole) Azimuth() (deg float64, ok bool) {
+	if c == nil {
+		return 0, false
+	}
+	// The camera centre C solves M C = -p4 (M the left 3x3 of P): Cramer's rule.
+	p := &c.P
+	det3 := func(a, b, d [3]float64) float64 {
+		return a[0]*(b[1]*d[2]-b[2]*d[1]) - b[0]*(a[1]*d[2]-a[2]*d[1]) + d[0]*(a[1]*b[2]-a[2]*b[1])
+	}
+	col := func(j int) [3]float64 { return [3]float64{p[0][j], p[1][j], p[2][j]} }
+	rhs := [3]float64{-p[0][3], -p[1][3], -p[2][3]}
+	d := det3(col(0), col(1), col(2))
+	if d == 0 || math.IsNaN(d) {
+		return 0, false
+	}
+	cx := det3(rhs, col(1), col(2)) / d
+	cy := det3(col(0), rhs, col(2)) / d
+	if math.Hypot(cx, cy) < 1 || math.IsNaN(cx+cy) {
+		return 0, false
+	}
+	// Toward the camera is (sin phi, -cos phi) in plan.
+	return math.Atan2(cx, -cy) * 180 / math.Pi, true
+}
+
 // FitPinhole fits a projection matrix to at least six points that are not
 // all in one plane: xyz are tower coordinates (mm), uv image positions (px).
 func FitPinhole(xyz [][3]float64, uv [][2]float64) (*Pinhole, error) {

@@ -1,6 +1,7 @@
 package measure
 
 import (
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -206,5 +207,44 @@ func TestCheckMarks(t *testing.T) {
 	err := CheckMarks(m)
 	if err == nil || !strings.Contains(err.Error(), "no scale") || strings.HasPrefix(err.Error(), "measure:") {
 		t.Errorf("no scale and no tower: %v", err)
+	}
+}
+
+// A marks file without a camera azimuth: the azimuth is taken from the
+// camera fitted to the marked points, so twist and sway match the run with
+// the azimuth given (the scene's camera is placed at a known azimuth: an
+// outside check of the fitted one, common practice).
+func TestMissingAzimuthFromFittedCamera(t *testing.T) {
+	for _, az := range []float64{25, -30} {
+		s := newScene(az)
+		s.frames = 40
+		s.twist = func(l, f int) float64 { return 0.02 * float64(l*f) }
+		s.sway = func(l, f int) [2]float64 { return [2]float64{0.01 * float64(l*f), 0.004 * float64(l*f)} }
+		m, tr := s.build()
+		want, err := Measure(Input{Marks: m, Tracks: tr, CaptureFPS: 1000})
+		if err != nil {
+			t.Fatal(err)
+		}
+		m.Camera = nil
+		got, err := Measure(Input{Marks: m, Tracks: tr, CaptureFPS: 1000})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if m.Camera != nil {
+			t.Fatal("Measure changed the caller's marks")
+		}
+		if !strings.Contains(strings.Join(got.Notes, " "), fmt.Sprintf("%.0f", az)) {
+			t.Errorf("azimuth %g: notes %q do not give the fitted azimuth", az, got.Notes)
+		}
+		for i := range want.Levels {
+			for r := range want.Levels[i].SwayMM {
+				if d := math.Abs(got.Levels[i].SwayMM[r] - want.Levels[i].SwayMM[r]); d > 0.02 {
+					t.Fatalf("azimuth %g: level %d row %d sway %.3f mm, %.3f with the azimuth given", az, want.Levels[i].Level, r, got.Levels[i].SwayMM[r], want.Levels[i].SwayMM[r])
+				}
+				if d := math.Abs(got.Levels[i].TwistDeg[r] - want.Levels[i].TwistDeg[r]); d > 0.02 {
+					t.Fatalf("azimuth %g: level %d row %d twist %.3f, %.3f with the azimuth given", az, want.Levels[i].Level, r, got.Levels[i].TwistDeg[r], want.Levels[i].TwistDeg[r])
+				}
+			}
+		}
 	}
 }

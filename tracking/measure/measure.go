@@ -386,6 +386,19 @@ func Measure(in Input) (*Result, error) {
 	if camNote != "" {
 		res.Notes = append(res.Notes, camNote)
 	}
+	if m.Camera == nil {
+		// Without an azimuth in the marks, take it from the fitted camera's
+		// position; sway is measured along the camera's right vector.
+		mc := *m
+		if az, ok := g.cam.Azimuth(); ok {
+			mc.Camera = &marks.Camera{AzimuthDeg: az}
+			res.Notes = append(res.Notes, fmt.Sprintf("no camera azimuth in the marks: %.1f degrees taken from the camera fitted to the marked points", az))
+		} else {
+			mc.Camera = &marks.Camera{}
+			res.Notes = append(res.Notes, "no camera azimuth in the marks and none could be fitted: 0 degrees assumed (camera square to face A-B); add camera.azimuth_deg to the marks")
+		}
+		g.in.Marks = &mc
+	}
 	res.Legs = g.legs()
 	// Two passes: the levels as rigid figures, then again with any joint
 	// that its own bending leg carried away from its level handled apart.
