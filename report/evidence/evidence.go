@@ -90,8 +90,20 @@ const (
 // maxClipWidth bounds the clip's frame width.
 const maxClipWidth = 640
 
-// seekGap is how far ahead a wanted frame must be before seeking beats reading.
+// seekGap is how far ahead a wanted frame must be before skipping to it
+// (decoding without converting) beats reading every frame to it.
 const seekGap = 24
+
+// grabGap is the largest forward gap crossed by decoding through the frames
+// in between, in steps of grabStep (each a short forward Seek, which decodes
+// without converting). A longer jump seeks, which decodes again from the
+// keyframe before the target: fewer frames only when a keyframe lies in the
+// gap. Contact-sheet frames of a long failure window sit ~50 frames apart;
+// seeking to each would decode up to a keyframe interval again every time.
+const (
+	grabGap  = 150
+	grabStep = 32
+)
 
 // Render reads the frames req needs from src and writes the shots, the
 // contact sheet and the clip into dir (created if needed).
@@ -161,6 +173,13 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 			frame = have
 		} else {
 			if pos < 0 || f < pos || f-pos > seekGap {
+				if pos >= 0 && f > pos && f-pos <= grabGap {
+					for ; f-pos > grabStep; pos += grabStep {
+						if err := src.Seek(pos + grabStep); err != nil {
+							return out, fmt.Errorf("evidence frame %d: %w", f, err)
+						}
+					}
+				}
 				if err := src.Seek(f); err != nil {
 					return out, fmt.Errorf("evidence frame %d: %w", f, err)
 				}
