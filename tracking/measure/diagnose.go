@@ -233,6 +233,16 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 			}
 		}
 		firstIsBreak = first != nil
+		if first != nil {
+			if lf := baseFoot(first, res, in); lf != nil {
+				for _, f := range finds {
+					if f.m == lf.m {
+						f.brk, f.brkDet = lf.brk, lf.brkDet
+						first = f
+					}
+				}
+			}
+		}
 	}
 
 	for _, f := range finds {
@@ -775,6 +785,50 @@ func peakFrac(m *Member, from, end int) float64 {
 		}
 	}
 	return p
+}
+
+// baseFoot checks a member that broke without bowing first for the base
+// letting go: when one of its ends is a leg's foot (a level-0 point) that
+// moved at least twice as far as the other end, and at least 0.5 px, over
+// the rows around the break, the failure is the leg's foot on the base, and
+// the leg's member (when marked) is returned as the first to go.
+func baseFoot(f *memberFind, res *Result, in Input) *memberFind {
+	m := f.m
+	if in.Tracks == nil || in.Marks == nil || len(m.Points) < 2 || f.brk < 0 {
+		return nil
+	}
+	r0, r1 := max(f.brk-JumpRows, 0), min(f.brk+2, len(in.Tracks.Samples)-1)
+	moved := func(id string) float64 {
+		c := in.Tracks.Index(id)
+		if c < 0 {
+			return math.NaN()
+		}
+		a, b := in.Tracks.Samples[r0][c], in.Tracks.Samples[r1][c]
+		if a.Lost || b.Lost {
+			return math.NaN()
+		}
+		return math.Hypot(b.X-a.X, b.Y-a.Y)
+	}
+	ends := [2]string{m.Points[0], m.Points[len(m.Points)-1]}
+	for k, id := range ends {
+		p, ok := in.Marks.Point(id)
+		if !ok || p.Leg == "" || p.Level == nil || *p.Level != 0 {
+			continue
+		}
+		dFoot, dOther := moved(id), moved(ends[1-k])
+		if !(dFoot >= 0.5 && dFoot >= 2*dOther) {
+			continue
+		}
+		for i := range res.Members {
+			lm := &res.Members[i]
+			if lm.Kind != "leg" || legOf(lm, in) != p.Leg {
+				continue
+			}
+			return &memberFind{m: lm, onset: -1, brk: f.brk, change: -1, leg: p.Leg,
+				brkDet: fmt.Sprintf("its foot %s moved %.1f px around frame row %d while %s's other end %s moved %.1f px: the base let go under leg %s", id, dFoot, f.brk, m.ID, ends[1-k], dOther, p.Leg)}
+		}
+	}
+	return nil
 }
 
 func legOf(m *Member, in Input) string {

@@ -248,3 +248,26 @@ func TestMissingAzimuthFromFittedCamera(t *testing.T) {
 		}
 	}
 }
+
+// A leg's foot sliding on the base breaks the braces that start there
+// without any bow: the first member to go is the leg (its foot), not the
+// brace whose chord stepped (common practice: a base joint failure is
+// named by the leg standing on it).
+func TestBaseFootNamesTheLeg(t *testing.T) {
+	s := newScene(25)
+	s.frames = 80
+	m, tr := s.build()
+	c := tr.Index("A0")
+	for r := 50; r < len(tr.Samples); r++ {
+		tr.Samples[r][c].X += 4 * math.Min(1, float64(r-49)/2) // slides 4 px over two frames
+	}
+	in := Input{Marks: m, Tracks: tr, CaptureFPS: 1000}
+	res, err := Measure(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d := Diagnose(res, in)
+	if d.FirstMember != "leg-A" || d.Mode != ModeJointOrBase || !strings.Contains(d.Account, "base let go under leg A") {
+		t.Errorf("first %q mode %s account %q; want leg-A, %s and the base letting go", d.FirstMember, d.Mode, d.Account, ModeJointOrBase)
+	}
+}
