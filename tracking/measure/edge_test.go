@@ -271,3 +271,22 @@ func TestBaseFootNamesTheLeg(t *testing.T) {
 		t.Errorf("first %q mode %s account %q; want leg-A, %s and the base letting go", d.FirstMember, d.Mode, d.Account, ModeJointOrBase)
 	}
 }
+
+// Level points without plan positions (no tower block, no plan_mm) give no
+// twist or sway, and a note says why instead of silence (common practice).
+func TestLevelsWithoutPlanAreNoted(t *testing.T) {
+	s := newScene(25)
+	s.frames = 5
+	m, tr := s.build()
+	m.Tower = nil
+	for i := range m.Points {
+		m.Points[i].PlanMM = nil
+	}
+	res, err := Measure(Input{Marks: m, Tracks: tr, CaptureFPS: 1000})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Levels) != 0 || !strings.Contains(strings.Join(res.Notes, " "), "twist and sway not measured") {
+		t.Errorf("levels %d, notes %q", len(res.Levels), res.Notes)
+	}
+}

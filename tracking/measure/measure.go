@@ -405,6 +405,14 @@ func Measure(in Input) (*Result, error) {
 	rigid, _ := g.levels(nil)
 	g.excess = g.jointExcess(res.Legs, rigid)
 	res.Levels, res.Notes = g.levels(res.Notes)
+	if len(res.Levels) == 0 {
+		for _, id := range g.order {
+			if p := g.pts[id]; p.level >= 0 && !p.hasPlan {
+				res.Notes = append(res.Notes, fmt.Sprintf("twist and sway not measured: level points (such as %s) have no plan position; add a tower block (base_mm, top_mm, height_mm, levels_mm) or plan_mm to the points", id))
+				break
+			}
+		}
+	}
 	res.Members = g.members(res.Levels)
 	panelAwareLegBows(res)
 	return res, nil
