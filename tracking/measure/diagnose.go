@@ -45,6 +45,11 @@ const (
 	// SustainRows is how many consecutive tracked rows must stay above the
 	// floor to confirm an onset.
 	SustainRows = 5
+	// OnsetFitRows is the half-width, in rows, of the window over which a
+	// straight line is fitted to the bow to place the onset where the bow's
+	// trend, rather than its noisiest frame, crosses the floor (a local
+	// linear regression; common practice).
+	OnsetFitRows = 10
 	// JumpRows is the most rows over which a bow may rise from under a
 	// quarter of the floor to the floor and still count as a jump (a break
 	// or a joint letting go) rather than buckling (common practice: a snap
@@ -377,8 +382,61 @@ func bowOnset(m *Member, nb, end int) (onset, change int, detail string) {
 			continue
 		}
 		_, start := CUSUM{Target: mu, K: CusumCPK * sigma}.ChangePoint(x, f)
-		return f, start, fmt.Sprintf("bow reached %.2f mm, 0.5%% of its %.0f mm length, and stayed above it for %d frames; it had been growing since frame row %d (Page's CUSUM on the bow: baseline %.3f mm, k = %.3f mm, h = %.3f mm, alarm at row %d)", floor, m.LengthMM, SustainRows, start, mu, c.K, c.H, alarm)
+		on := onsetCrossing(x, f, floor, start)
+		return on, start, fmt.Sprintf("bow reached %.2f mm, 0.5%% of its %.0f mm length (where a straight line fitted to the bow over %d frames either side crosses it; the bow stayed above it for %d frames from row %d); it had been growing since frame row %d (Page's CUSUM on the bow: baseline %.3f mm, k = %.3f mm, h = %.3f mm, alarm at row %d)", floor, m.LengthMM, OnsetFitRows, SustainRows, f, start, mu, c.K, c.H, alarm)
 	}
+}
+
+// onsetCrossing refines a confirmed onset: f is the first row of the first
+// run of SustainRows rows at or above floor, which noise near the floor
+// delays (one low frame restarts the run). A straight line is fitted by
+// least squares to the bow over OnsetFitRows rows either side of a centre,
+// starting at f and moved to the line's crossing of floor (twice more: a
+// local linear regression centred on the crossing, so the trend's curvature
+// hardly biases it). The onset is the first row at or after the crossing,
+// kept between the CUSUM change point and f + SustainRows - 1 (the
+// confirmed run); f is kept when the line does not rise.
+func onsetCrossing(x []float64, f int, floor float64, change int) int {
+	lo := max(change, 0)
+	hi := min(f+SustainRows-1, len(x)-1)
+	if hi < lo {
+		return f
+	}
+	centre := float64(f)
+	on := f
+	for it := 0; it < 3; it++ {
+		c := int(math.Round(centre))
+		var sw, st, sy, stt, sty float64
+		for i := max(c-OnsetFitRows, 0); i <= min(c+OnsetFitRows, len(x)-1); i++ {
+			if math.IsNaN(x[i]) {
+				continue
+			}
+			t := float64(i - c)
+			sw++
+			st += t
+			sy += x[i]
+			stt += t * t
+			sty += t * x[i]
+		}
+		den := sw*stt - st*st
+		if sw < float64(OnsetFitRows) || den <= 0 {
+			return on
+		}
+		slope := (sw*sty - st*sy) / den
+		if slope <= 0 {
+			return on
+		}
+		icept := (sy - slope*st) / sw
+		cross := float64(c) + (floor-icept)/slope
+		r := int(math.Ceil(cross - 1e-9))
+		r = min(max(r, lo), hi)
+		on = r
+		if math.Abs(cross-centre) < 0.5 {
+			break
+		}
+		centre = math.Min(math.Max(cross, float64(lo)), float64(hi))
+	}
+	return on
 }
 
 // bowJumped reports whether the bow reached row f (the first of a run at

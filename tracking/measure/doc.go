@@ -62,12 +62,17 @@
 //
 // # Events
 //
-// A member's buckling onset is the first frame from which its bow stays at
-// or above 0.5 % of its length for SustainRows frames, provided Page's
-// one-sided CUSUM on the bow (baseline mean and standard deviation from the
-// first fifth of the clip, 10 to 200 frames; reference value k = 0.5 sigma,
-// decision interval h = 5 sigma) has signalled by then; a bow that jumps
-// over that floor in one frame is a break, not buckling. The CUSUM's change
+// A member's buckling is confirmed at the first frame from which its bow
+// stays at or above 0.5 % of its length for SustainRows frames, provided
+// Page's one-sided CUSUM on the bow (baseline mean and standard deviation
+// from the first fifth of the clip, 10 to 200 frames; reference value
+// k = 0.5 sigma, decision interval h = 5 sigma) has signalled by then; a bow
+// that jumps over that floor in one frame is a break, not buckling. The
+// onset is then placed where a straight line fitted to the bow over
+// OnsetFitRows frames either side of the crossing (a local linear
+// regression) crosses the floor, kept between the CUSUM change point and
+// the end of the confirmed run, so one noisy frame near the floor does not
+// delay it. The CUSUM's change
 // point, where the bow began to grow, is given in the event's detail.
 // A break is a step of the chord length (three frames against the three
 // before, less the trend of the twelve before that, lasting at least six
