@@ -237,12 +237,24 @@ func (w *writer) plots() error {
 		after = ", up to just after the collapse"
 	}
 	var tw, sw []plots.Series
+	faceOnly := false
 	for _, l := range w.meas.Levels {
 		name := fmt.Sprintf("level %d", l.Level)
 		if l.Observable {
 			tw = append(tw, plots.Series{Name: name, X: ct[:len(head(l.TwistDeg))], Y: head(l.TwistDeg)})
 		}
-		sw = append(sw, plots.Series{Name: name, X: ct[:len(head(l.SwayMM))], Y: head(l.SwayMM)})
+		swName := name
+		if !l.Observable {
+			// Twist unseen: the number is the front face's sideways motion,
+			// twist not separated (see the level's note), not true sway.
+			swName = name + " (front face, twist not separated)"
+			faceOnly = true
+		}
+		sw = append(sw, plots.Series{Name: swName, X: ct[:len(head(l.SwayMM))], Y: head(l.SwayMM)})
+	}
+	swCaption := "Sideways sway of each level's centre"
+	if faceOnly {
+		swCaption += "; where this camera cannot see a level's twist, the line is the sideways motion of the face toward the camera, with any twist not separated from it"
 	}
 	if len(tw) > 0 {
 		if err := w.plot(plots.Chart{Title: "Twist per level", XLabel: "real time (s)", YLabel: "twist (degrees, counter-clockwise from above)", Series: tw, Marks: evMarks},
@@ -252,7 +264,7 @@ func (w *writer) plots() error {
 	}
 	if len(sw) > 0 {
 		if err := w.plot(plots.Chart{Title: "Sway per level", XLabel: "real time (s)", YLabel: "sway (mm, to the image right)", Series: sw, Marks: evMarks},
-			"sway", "Sideways sway of each level's centre"+after); err != nil {
+			"sway", swCaption+after); err != nil {
 			return err
 		}
 	}

@@ -20,7 +20,9 @@
 // Twist therefore shows only through depth differences: a small twist moves a
 // point sideways by theta times its distance toward the camera. When a
 // level's points span less than MinDepthFrac of the level's width in depth,
-// its twist is reported as not observable rather than as a number.
+// its twist is reported as not observable rather than as a number, and its
+// sway is then only the sideways motion of the face toward the camera with
+// any twist not separated from it (the level's note says so).
 //
 // That near-orthographic model is the fallback. When the marks give plan
 // positions and heights for at least six points not in one plane (leg

@@ -65,7 +65,10 @@ type Level struct {
 	Note string
 	// TwistDeg is the twist, degrees, counter-clockwise from above positive; NaN where unknown.
 	TwistDeg []float64
-	// SwayMM is the level centre's displacement along the camera's right vector, mm; NaN where unknown.
+	// SwayMM is the level centre's displacement along the camera's right
+	// vector, mm; NaN where unknown. When Observable is false it is only the
+	// sideways motion of the face toward the camera, with any twist not
+	// separated from it (the Note says so), not true sway.
 	SwayMM []float64
 	// SettleMM is the vertical displacement, mm, positive down; NaN where unknown.
 	SettleMM []float64
@@ -550,7 +553,7 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 		case len(ps) < 2:
 			L.Note = fmt.Sprintf("level %d has %d marked point with a plan position; twist and sway need at least two points at different depths (three give a check)%s", lv, len(ps), azNote)
 		case L.WidthMM <= 0 || L.DepthSpreadMM < MinDepthFrac*L.WidthMM:
-			L.Note = fmt.Sprintf("level %d: twist is not observable from this camera: its points span %.1f mm in depth, under %.0f%% of the level's %.1f mm width; sway is given assuming no twist%s", lv, L.DepthSpreadMM, 100*MinDepthFrac, L.WidthMM, azNote)
+			L.Note = fmt.Sprintf("level %d: twist is not observable from this camera: its points span %.1f mm in depth, under %.0f%% of the level's %.1f mm width; its sway is only the sideways motion of the face toward the camera, twist not separated (a twist of 1 degree alone would move that face %.2f mm sideways), so it is true sway only where the tower did not twist%s", lv, L.DepthSpreadMM, 100*MinDepthFrac, L.WidthMM, L.WidthMM/2*math.Pi/180, azNote)
 		default:
 			L.Observable = true
 		}
