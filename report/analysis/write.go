@@ -243,17 +243,25 @@ func (w *writer) plots() error {
 		if l.Observable {
 			tw = append(tw, plots.Series{Name: name, X: ct[:len(head(l.TwistDeg))], Y: head(l.TwistDeg)})
 		}
-		swName := name
 		if !l.Observable {
 			// Twist unseen: the number is the front face's sideways motion,
 			// twist not separated (see the level's note), not true sway.
-			swName = name + " (front face, twist not separated)"
 			faceOnly = true
 		}
-		sw = append(sw, plots.Series{Name: swName, X: ct[:len(head(l.SwayMM))], Y: head(l.SwayMM)})
+		sw = append(sw, plots.Series{Name: name, X: ct[:len(head(l.SwayMM))], Y: head(l.SwayMM)})
 	}
+	swTitle, swY := "Sway per level", "sway (mm, to the image right)"
 	swCaption := "Sideways sway of each level's centre"
 	if faceOnly {
+		allFace := len(tw) == 0
+		for i, l := range w.meas.Levels {
+			if !l.Observable && !allFace {
+				sw[i].Name += " (face only)"
+			}
+		}
+		if allFace {
+			swTitle, swY = "Front face sideways motion per level (twist not separated)", "sideways motion (mm, to the image right)"
+		}
 		swCaption += "; where this camera cannot see a level's twist, the line is the sideways motion of the face toward the camera, with any twist not separated from it"
 	}
 	if len(tw) > 0 {
@@ -263,7 +271,7 @@ func (w *writer) plots() error {
 		}
 	}
 	if len(sw) > 0 {
-		if err := w.plot(plots.Chart{Title: "Sway per level", XLabel: "real time (s)", YLabel: "sway (mm, to the image right)", Series: sw, Marks: evMarks},
+		if err := w.plot(plots.Chart{Title: swTitle, XLabel: "real time (s)", YLabel: swY, Series: sw, Marks: evMarks},
 			"sway", swCaption+after); err != nil {
 			return err
 		}
