@@ -265,13 +265,13 @@ func (w *writer) plots() error {
 		swCaption += "; where this camera cannot see a level's twist, the line is the sideways motion of the face toward the camera, with any twist not separated from it"
 	}
 	if len(tw) > 0 {
-		if err := w.plot(plots.Chart{Title: "Twist per level", XLabel: "real time (s)", YLabel: "twist (degrees, counter-clockwise from above)", Series: tw, Marks: evMarks},
+		if err := w.plot(plots.Chart{Title: "Twist per level", XLabel: "real time (s)", YLabel: "twist (degrees, counter-clockwise from above)", Series: tw, Marks: evMarks, LegendLeft: true},
 			"twist", "Twist of each level whose twist this camera can see"+after); err != nil {
 			return err
 		}
 	}
 	if len(sw) > 0 {
-		if err := w.plot(plots.Chart{Title: swTitle, XLabel: "real time (s)", YLabel: swY, Series: sw, Marks: evMarks},
+		if err := w.plot(plots.Chart{Title: swTitle, XLabel: "real time (s)", YLabel: swY, Series: sw, Marks: evMarks, LegendLeft: true},
 			"sway", swCaption+after); err != nil {
 			return err
 		}
