@@ -125,7 +125,7 @@ to failure.` + exitHelp,
 					return &FlagError{Err: fmt.Errorf("--%s: %w", name, err)}
 				}
 			}
-			if err := checkRateFlags(cmd, c.CaptureFPS, 0); err != nil {
+			if err := checkRateFlags(cmd, c.CaptureFPS, c.ImageFPS); err != nil {
 				return err
 			}
 			return runF(opts)
@@ -142,6 +142,7 @@ to failure.` + exitHelp,
 	f.StringVar(&opts.sync, "sync", "", "FRAME@LOGTIME: a frame matched to a logger time in seconds, e.g. 412@35.18")
 	f.Float64Var(&c.MassG, "mass-g", 0, "structure mass in grams, for the efficiency (load held / mass)")
 	f.Float64Var(&c.CaptureFPS, "capture-fps", 0, "true capture rate of the clip (default: the marks file's, else the container's)")
+	f.Float64Var(&c.ImageFPS, "image-fps", 0, "rate of a folder of stills, frames per second")
 	f.StringVar(&c.From, "from", "", "first frame to analyse: a frame number or seconds like 1.25s")
 	f.StringVar(&c.To, "to", "", "last frame to analyse: a frame number or seconds like 2.5s")
 	f.BoolVar(&c.Force, "force", false, "replace an existing report folder")

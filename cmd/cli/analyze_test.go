@@ -41,6 +41,12 @@ func TestAnalyzeArgsToOptions(t *testing.T) {
 					t.Errorf("cfg %+v", c)
 				}
 			}},
+		{name: "folder of stills", args: append(base, "--image-fps", "2000"), check: func(t *testing.T, o *analyzeOptions) {
+			if o.cfg.ImageFPS != 2000 {
+				t.Errorf("image fps %g, want 2000", o.cfg.ImageFPS)
+			}
+		}},
+		{name: "zero image rate", args: append(base, "--image-fps", "0"), code: ExitUsage, err: "--image-fps"},
 		{name: "sync seconds", args: append(base, "--load", "l.csv", "--sync", "412@35.18"), check: func(t *testing.T, o *analyzeOptions) {
 			if s := o.cfg.Sync; s == nil || s.Frame != 412 || s.LogTimeS != 35.18 {
 				t.Errorf("sync %+v", s)

@@ -396,7 +396,11 @@ func Parse(path string, r io.Reader, opt Options) (*Log, []Warning, error) {
 	peak := log.LoadG[peakI]
 	unitWhy := fmt.Sprintf("unit %s (%s)", loadUnit, loadUnitFrom)
 	if peak > MaxPlausibleG {
-		return fail(log.Lines[peakI], "load %.6g %s = %.6g kg is implausible for a model structure; %s looks wrong", peak/gramsPer, loadUnit, peak/1000, unitWhy)
+		shown := fmt.Sprintf("%.6g %s", peak/gramsPer, loadUnit)
+		if loadUnit != "kg" {
+			shown += fmt.Sprintf(" = %.6g kg", peak/1000)
+		}
+		return fail(log.Lines[peakI], "load %s is implausible for a model structure; %s looks wrong", shown, unitWhy)
 	}
 	if opt.MassG > 0 && peak/opt.MassG > MaxPlausibleEfficiency {
 		return fail(log.Lines[peakI], "load %.6g %s = %.6g g is %.0f times the structure's %.4g g; %s looks wrong", peak/gramsPer, loadUnit, peak, peak/opt.MassG, opt.MassG, unitWhy)

@@ -246,7 +246,7 @@ func TestParseRejects(t *testing.T) {
 		{"many bad lines", many, Options{}, 2, "data lines are bad"},
 		{"time backwards repeatedly", backwards, Options{}, 4, "backwards on 3 lines"},
 		// A 20 g tower cannot hold 5000 kg: the header's kg contradicts the values (grams).
-		{"kg header with gram values", "time_s,load_kg\n0,0\n1,2500\n2,5000\n3,0\n", Options{}, 4, "implausible"},
+		{"kg header with gram values", "time_s,load_kg\n0,0\n1,2500\n2,5000\n3,0\n", Options{}, 4, "load 5000 kg is implausible"},
 		// 50 kg on a 2 g tower is an efficiency of 25000: unit wrong (common practice: model towers score up to a few thousand).
 		{"kg with mass", "time_s,load_kg\n0,0\n1,25\n2,50\n", Options{MassG: 2}, 4, "times the structure's"},
 		{"index without rate", "0,1\n1,2\n2,3\n", Options{}, 1, "sample index"},
