@@ -177,7 +177,7 @@ func parseSync(s string) (*analysis.SyncMark, error) {
 func analyzeRun(opts *analyzeOptions) error {
 	cfg := opts.cfg
 	if cfg.Tool == "" {
-		cfg.Tool = "failframe"
+		cfg.Tool = "failframe " + Version
 	}
 	errOut := opts.io.ErrOut
 	status := func(format string, a ...any) {

@@ -11,6 +11,10 @@ import (
 	"github.com/spf13/cobra"
 )
 
+// Version is failframe's version, printed by --version and written into
+// every report.
+const Version = "0.1.0"
+
 // NewRootCmd builds the failframe command tree.
 func NewRootCmd(io *IOStreams) *cobra.Command {
 	root := &cobra.Command{
@@ -26,6 +30,7 @@ protection and keep hands and feet clear of the hanging load. Real structures
 follow local codes and licensed engineers, not model tests.` + exitHelp,
 		SilenceErrors: true,
 		SilenceUsage:  true,
+		Version:       Version,
 	}
 	root.SetOut(io.Out)
 	root.SetErr(io.ErrOut)

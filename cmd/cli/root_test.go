@@ -29,6 +29,7 @@ func TestRootHelpAndUsageErrors(t *testing.T) {
 		wantErr string
 	}{
 		{"help lists safety and exit statuses", []string{"--help"}, ExitOK, "Exit status:", ""},
+		{"version", []string{"--version"}, ExitOK, "failframe version " + Version, ""},
 		{"unknown command", []string{"no-such-command"}, ExitUsage, "", "unknown command"},
 		{"unknown flag", []string{"--no-such-flag"}, ExitUsage, "", "unknown flag"},
 	}
