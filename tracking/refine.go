@@ -212,6 +212,8 @@ type refiner struct {
 	// robust refinement's weights, residuals and sorted absolute residuals
 	rw, res, abs []float64
 	blk          []float64 // frame block as floats
+	// next is learnStatic's new still-background mask
+	next []bool
 }
 
 func (rf *refiner) ensure(r int) {
@@ -403,11 +405,22 @@ func (rf *refiner) coreScore(tp *template) float64 {
 // anchor grid) and not at the moved place is still background. Once a
 // pixel's evidence is strong it is weighted out of the template, so that a
 // textured wall or table behind a thin member does not hold the point back.
-// Nothing is learned until the point has moved 0.7 px, where the two
-// explanations can be told apart. It reports whether the template changed.
+//
+// The evidence is a sequential log-likelihood ratio (Wald, "Sequential
+// tests of statistical hypotheses", Ann. Math. Statist. 16:117-186, 1945)
+// of the two explanations under Gaussian residuals: each look adds
+// (em^2 - es^2) / (2 var), where es and em are the pixel's residuals if it
+// stayed and if it moved. The increment's mean and spread both shrink with
+// the motion, so small motions add little but never nothing, and a faint
+// background under sensor noise is still learned over many frames. A pixel
+// is taken as still background when its own evidence favours that and the
+// evidence summed over its 3x3 neighbourhood (still background comes in
+// regions, not single pixels) passes a likelihood ratio of e^staticOn; it
+// is taken back below e^staticOff. Nothing is learned until the point has
+// moved minLearnMove px. It reports whether the template changed.
 func (rf *refiner) learnStatic(tp *template, img grayImage, x, y float64) bool {
 	ax, ay, r := tp.anchorX, tp.anchorY, tp.r
-	if math.Hypot(x-float64(ax), y-float64(ay)) < 0.7 {
+	if math.Hypot(x-float64(ax), y-float64(ay)) < minLearnMove {
 		return false
 	}
 	if ax-r < 0 || ay-r < 0 || ax+r >= img.width || ay+r >= img.height {
@@ -454,21 +467,51 @@ func (rf *refiner) learnStatic(tp *template, img grayImage, x, y float64) bool {
 		noise += g * math.Min(mov[k], st[k])
 		gsum += g
 	}
-	noise /= gsum
-	thr := 4 * math.Max(noise, 1)
+	// The residual variance of the better explanation, pixel by pixel, is
+	// the noise (the mean of the smaller of two squares underestimates it
+	// by about half for equal spreads: take twice).
+	vr := math.Max(2*noise/gsum, 1)
 	if tp.ev == nil {
 		tp.ev = make([]float32, n)
 	}
-	changed := false
 	for k := range tp.ev {
-		em2, es2 := mov[k], st[k]
-		switch {
-		case em2 > thr && es2 < 0.25*em2:
-			tp.ev[k] = min(tp.ev[k]+1, 10)
-		case es2 > thr && em2 < 0.25*es2:
-			tp.ev[k] = max(tp.ev[k]-1, -10)
+		inc := (mov[k] - st[k]) / (2 * vr)
+		// A single look is capped so that one disturbance (a flash, a
+		// passing hand) cannot decide.
+		inc = math.Max(-maxLookEvidence, math.Min(maxLookEvidence, inc))
+		tp.ev[k] = float32(math.Max(-maxEvidence, math.Min(maxEvidence, float64(tp.ev[k])+inc)))
+	}
+	changed := false
+	if len(rf.next) < n {
+		rf.next = make([]bool, n)
+	}
+	next := rf.next[:n]
+	for v := 0; v < side; v++ {
+		for u := 0; u < side; u++ {
+			k := v*side + u
+			next[k] = false
+			if tp.ev[k] <= 0 {
+				continue
+			}
+			var sum float64
+			for dv := -1; dv <= 1; dv++ {
+				for du := -1; du <= 1; du++ {
+					uu, vv := u+du, v+dv
+					if uu < 0 || vv < 0 || uu >= side || vv >= side {
+						continue
+					}
+					sum += float64(tp.ev[vv*side+uu])
+				}
+			}
+			lim := staticOn
+			if tp.static[k] {
+				lim = staticOff
+			}
+			next[k] = sum >= lim
 		}
-		if (tp.ev[k] >= 3) != tp.static[k] {
+	}
+	for k := range next {
+		if next[k] != tp.static[k] {
 			changed = true
 		}
 	}
@@ -478,7 +521,7 @@ func (rf *refiner) learnStatic(tp *template, img grayImage, x, y float64) bool {
 	old := append([]bool(nil), tp.static...)
 	var kept, total float64
 	for k, g := range tp.gauss {
-		tp.static[k] = tp.ev[k] >= 3
+		tp.static[k] = next[k]
 		total += g
 		if !tp.static[k] {
 			kept += g
@@ -494,6 +537,21 @@ func (rf *refiner) learnStatic(tp *template, img grayImage, x, y float64) bool {
 	}
 	return true
 }
+
+// Settings of the still-background learning (see learnStatic).
+const (
+	// minLearnMove is the least distance in px from the anchor at which
+	// the two explanations are compared.
+	minLearnMove = 0.3
+	// maxLookEvidence caps one look's log-likelihood ratio per pixel, and
+	// maxEvidence the running sum, so that a pixel can change sides.
+	maxLookEvidence = 2
+	maxEvidence     = 12
+	// staticOn and staticOff are the 3x3-summed log-likelihood ratios at
+	// which a pixel is weighted out, and back in.
+	staticOn  = 12.0
+	staticOff = 6.0
+)
 
 // robustResult is the outcome of a robust refinement.
 type robustResult struct {
