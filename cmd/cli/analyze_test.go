@@ -1,7 +1,6 @@
 package cli
 
 import (
-	"bytes"
 	"os"
 	"path/filepath"
 	"strings"
@@ -10,11 +9,6 @@ import (
 	"github.com/failframe/failframe/report"
 	"github.com/failframe/failframe/report/analysis"
 )
-
-func analyzeTestIO() (*IOStreams, *bytes.Buffer, *bytes.Buffer) {
-	out, errOut := &bytes.Buffer{}, &bytes.Buffer{}
-	return &IOStreams{In: strings.NewReader(""), Out: out, ErrOut: errOut}, out, errOut
-}
 
 func TestAnalyzeArgsToOptions(t *testing.T) {
 	base := []string{"clip.avi", "--marks", "m.yaml", "--out", "rep"}
@@ -78,7 +72,7 @@ func TestAnalyzeArgsToOptions(t *testing.T) {
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			io, _, _ := analyzeTestIO()
+			io, _, _ := testIO()
 			var got *analyzeOptions
 			root := NewRootCmd(io)
 			for _, c := range root.Commands() {
@@ -123,7 +117,7 @@ func TestAnalyzeBadInputExits3(t *testing.T) {
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			io, _, errOut := analyzeTestIO()
+			io, _, errOut := testIO()
 			if code := Run(io, append([]string{"analyze"}, tt.args...)); code != ExitBadInput {
 				t.Fatalf("exit %d, want %d; stderr %s", code, ExitBadInput, errOut)
 			}
@@ -138,7 +132,7 @@ func TestAnalyzeBadInputExits3(t *testing.T) {
 }
 
 func TestAnalyzeSummaryOutput(t *testing.T) {
-	io, out, _ := analyzeTestIO()
+	io, out, _ := testIO()
 	g := func(v float64) *float64 { return &v }
 	r := &report.Result{
 		Account: "Brace AB-d2 bowed first.", FirstMember: "AB-d2", FailureMode: "brace_buckling",

@@ -28,13 +28,7 @@ func TestProbeArgsToOptions(t *testing.T) {
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			io, _, _ := testIO()
-			var got *probeOptions
-			cmd := newProbeCmdWith(io, func(o *probeOptions) error { got = o; return nil })
-			cmd.SetArgs(tt.args)
-			cmd.SetOut(io.Out)
-			cmd.SetErr(io.ErrOut)
-			err := cmd.Execute()
+			got, err := parseArgs(t, newProbeCmdWith, tt.args)
 			if tt.wantErr != "" {
 				var fe *FlagError
 				if !errors.As(err, &fe) || !strings.Contains(err.Error(), tt.wantErr) {
