@@ -16,6 +16,7 @@ import (
 	"github.com/chromedp/chromedp"
 	"github.com/chromedp/chromedp/kb"
 
+	"github.com/failframe/failframe/report/internal/browsertest"
 	"github.com/failframe/failframe/tracking/marks"
 )
 
@@ -31,19 +32,7 @@ func newBrowser(t *testing.T) context.Context {
 		}
 		path = "/usr/bin/chromium"
 	}
-	opts := []chromedp.ExecAllocatorOption{
-		chromedp.ExecPath(path),
-		chromedp.Headless,
-		chromedp.NoSandbox,
-		chromedp.DisableGPU,
-		chromedp.NoFirstRun,
-		chromedp.NoDefaultBrowserCheck,
-		chromedp.Flag("disable-background-networking", true),
-		chromedp.Flag("disable-component-update", true),
-		chromedp.Flag("disable-sync", true),
-		chromedp.UserDataDir(t.TempDir()),
-		chromedp.WindowSize(1400, 900),
-	}
+	opts := append(browsertest.AllocatorOptions(path, t.TempDir()), chromedp.WindowSize(1400, 900))
 	actx, cancelA := chromedp.NewExecAllocator(context.Background(), opts...)
 	ctx, cancelC := chromedp.NewContext(actx)
 	t.Cleanup(func() {

@@ -41,18 +41,7 @@ func Load(t *testing.T, path string, ids ...string) *Page {
 	if _, err := os.Stat(Chromium); err != nil {
 		t.Skipf("%s not installed (make deps installs it): %v", Chromium, err)
 	}
-	opts := []chromedp.ExecAllocatorOption{
-		chromedp.ExecPath(Chromium),
-		chromedp.Headless,
-		chromedp.NoSandbox,
-		chromedp.DisableGPU,
-		chromedp.NoFirstRun,
-		chromedp.NoDefaultBrowserCheck,
-		chromedp.Flag("disable-background-networking", true),
-		chromedp.Flag("disable-component-update", true),
-		chromedp.Flag("disable-sync", true),
-		chromedp.UserDataDir(t.TempDir()),
-	}
+	opts := AllocatorOptions(Chromium, t.TempDir())
 	actx, cancel := chromedp.NewExecAllocator(context.Background(), opts...)
 	defer cancel()
 
@@ -119,4 +108,22 @@ func Load(t *testing.T, path string, ids ...string) *Page {
 	}
 	page.Images, page.BrokenImages = images, broken
 	return page
+}
+
+// AllocatorOptions are the flags for a headless Chromium at execPath with a
+// fresh profile in userDataDir: no sandbox (tests run as root in CI), no GPU,
+// and no background connections (the test machine has no network).
+func AllocatorOptions(execPath, userDataDir string) []chromedp.ExecAllocatorOption {
+	return []chromedp.ExecAllocatorOption{
+		chromedp.ExecPath(execPath),
+		chromedp.Headless,
+		chromedp.NoSandbox,
+		chromedp.DisableGPU,
+		chromedp.NoFirstRun,
+		chromedp.NoDefaultBrowserCheck,
+		chromedp.Flag("disable-background-networking", true),
+		chromedp.Flag("disable-component-update", true),
+		chromedp.Flag("disable-sync", true),
+		chromedp.UserDataDir(userDataDir),
+	}
 }
