@@ -31,7 +31,7 @@ vet: deps
 
 test: build vet
 	$(GO) test -timeout 20m ./...
-	$(GO) test -run '^$$' -fuzz FuzzParse -fuzztime 20s ./report/loadlog
+	$(GO) test -run '^$$' -fuzz FuzzParse -fuzztime 20s -fuzzminimizetime 200x ./report/loadlog
 
 demo: build
 	@rm -rf $(DEMO)
