@@ -7,7 +7,7 @@ DEMO := demo-out
 SUDO := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 APT_PKGS := libopencv-dev ffmpeg pkg-config python3-opencv python3-numpy chromium
 
-.PHONY: deps build test vet demo bench fuzz screenshots clean
+.PHONY: deps build test vet demo bench screenshots clean
 
 # deps installs Debian's OpenCV, ffmpeg, the Python binding of OpenCV (an
 # independent check in the tests) and Chromium (browser tests) when missing.
