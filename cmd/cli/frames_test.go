@@ -1,7 +1,6 @@
 package cli
 
 import (
-	"errors"
 	"image"
 	"os"
 	"path/filepath"
@@ -36,21 +35,7 @@ func TestFramesArgsToOptions(t *testing.T) {
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			got, err := parseArgs(t, newFramesCmdWith, tt.args)
-			if tt.wantErr != "" {
-				var fe *FlagError
-				if !errors.As(err, &fe) || !strings.Contains(err.Error(), tt.wantErr) {
-					t.Fatalf("error %v, want a FlagError with %q", err, tt.wantErr)
-				}
-				return
-			}
-			if err != nil {
-				t.Fatal(err)
-			}
-			got.io = nil
-			if *got != tt.want {
-				t.Errorf("options %+v, want %+v", *got, tt.want)
-			}
+			checkArgs(t, newFramesCmdWith, tt.args, tt.wantErr, tt.want, func(o *framesOptions) { o.io = nil })
 		})
 	}
 }

@@ -1,6 +1,8 @@
 package cli
 
 import (
+	"errors"
+	"strings"
 	"testing"
 
 	"github.com/spf13/cobra"
@@ -18,4 +20,26 @@ func parseArgs[T any](t *testing.T, newCmdWith func(*IOStreams, func(*T) error) 
 	cmd.SetErr(io.ErrOut)
 	err := cmd.Execute()
 	return got, err
+}
+
+// checkArgs parses args with newCmdWith and checks the outcome: a *FlagError
+// containing wantErr when wantErr is set, else options equal to want once
+// clear has removed the fields a test cannot compare (such as the streams).
+func checkArgs[T comparable](t *testing.T, newCmdWith func(*IOStreams, func(*T) error) *cobra.Command, args []string, wantErr string, want T, clear func(*T)) {
+	t.Helper()
+	got, err := parseArgs(t, newCmdWith, args)
+	if wantErr != "" {
+		var fe *FlagError
+		if !errors.As(err, &fe) || !strings.Contains(err.Error(), wantErr) {
+			t.Fatalf("error %v, want a FlagError with %q", err, wantErr)
+		}
+		return
+	}
+	if err != nil {
+		t.Fatal(err)
+	}
+	clear(got)
+	if *got != want {
+		t.Errorf("options %+v, want %+v", *got, want)
+	}
 }

@@ -2,7 +2,6 @@ package cli
 
 import (
 	"encoding/json"
-	"errors"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -28,21 +27,7 @@ func TestProbeArgsToOptions(t *testing.T) {
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			got, err := parseArgs(t, newProbeCmdWith, tt.args)
-			if tt.wantErr != "" {
-				var fe *FlagError
-				if !errors.As(err, &fe) || !strings.Contains(err.Error(), tt.wantErr) {
-					t.Fatalf("error %v, want a FlagError with %q", err, tt.wantErr)
-				}
-				return
-			}
-			if err != nil {
-				t.Fatal(err)
-			}
-			got.io = nil
-			if *got != tt.want {
-				t.Errorf("options %+v, want %+v", *got, tt.want)
-			}
+			checkArgs(t, newProbeCmdWith, tt.args, tt.wantErr, tt.want, func(o *probeOptions) { o.io = nil })
 		})
 	}
 }
