@@ -217,7 +217,7 @@ func (c *Pinhole) levelPose(xyz [][3]float64, ref, obs [][2]float64, toward [2]f
 		return x, false
 	}
 	cost := dot(r, r)
-	J := mat.NewDense(m, 4, nil)
+	J := make([][4]float64, m)
 	steps := [4]float64{1e-6, 1e-4, 1e-4, 1e-4}
 	for it := 0; it < 30; it++ {
 		for k := 0; k < 4; k++ {
@@ -227,31 +227,37 @@ func (c *Pinhole) levelPose(xyz [][3]float64, ref, obs [][2]float64, toward [2]f
 				return x, false
 			}
 			for i := 0; i < m; i++ {
-				J.Set(i, k, (rp[i]-r[i])/steps[k])
+				J[i][k] = (rp[i] - r[i]) / steps[k]
 			}
 		}
-		var JtJ mat.Dense
-		JtJ.Mul(J.T(), J)
-		g := mat.NewVecDense(4, nil)
-		g.MulVec(J.T(), mat.NewVecDense(m, r))
+		var JtJ [4][4]float64
+		var g [4]float64
+		for i := 0; i < m; i++ {
+			for a := 0; a < 4; a++ {
+				g[a] += J[i][a] * r[i]
+				for b := 0; b <= a; b++ {
+					JtJ[a][b] += J[i][a] * J[i][b]
+				}
+			}
+		}
 		improved := false
 		for try := 0; try < 10; try++ {
-			A := mat.DenseCopyOf(&JtJ)
+			A := JtJ
 			for k := 0; k < 4; k++ {
-				A.Set(k, k, A.At(k, k)*(1+lambda)+1e-12)
+				A[k][k] = A[k][k]*(1+lambda) + 1e-12
 			}
-			var dx mat.VecDense
-			if err := dx.SolveVec(A, g); err != nil {
+			dx, ok := solve4(A, g)
+			if !ok {
 				lambda *= 10
 				continue
 			}
 			xn := x
 			for k := 0; k < 4; k++ {
-				xn[k] -= dx.AtVec(k)
+				xn[k] -= dx[k]
 			}
 			if resid(xn, rp) {
 				if cn := dot(rp, rp); cn <= cost {
-					small := math.Abs(dx.AtVec(0)) < 1e-10 && math.Abs(dx.AtVec(1)) < 1e-7 && math.Abs(dx.AtVec(2)) < 1e-7 && math.Abs(dx.AtVec(3)) < 1e-7
+					small := math.Abs(dx[0]) < 1e-10 && math.Abs(dx[1]) < 1e-7 && math.Abs(dx[2]) < 1e-7 && math.Abs(dx[3]) < 1e-7
 					x, cost = xn, cn
 					copy(r, rp)
 					lambda = math.Max(lambda/10, 1e-9)
@@ -267,6 +273,53 @@ func (c *Pinhole) levelPose(xyz [][3]float64, ref, obs [][2]float64, toward [2]f
 		if !improved {
 			break
 		}
+	}
+	return x, true
+}
+
+// solve4 solves A x = b for a symmetric positive definite 4x4 matrix given
+// by its lower triangle, by Cholesky factorisation (Golub & Van Loan,
+// Matrix Computations, 4th ed., Algorithm 4.2.1). It reports false when A is
+// not positive definite or so ill-conditioned that a pivot falls below
+// 1e-16 of the largest diagonal entry (the condition limit gonum's solvers
+// also use).
+func solve4(A [4][4]float64, b [4]float64) (x [4]float64, ok bool) {
+	var L [4][4]float64
+	dmax := 0.0
+	for k := 0; k < 4; k++ {
+		dmax = math.Max(dmax, math.Abs(A[k][k]))
+	}
+	for j := 0; j < 4; j++ {
+		d := A[j][j]
+		for k := 0; k < j; k++ {
+			d -= L[j][k] * L[j][k]
+		}
+		if !(d > 1e-16*dmax) {
+			return x, false
+		}
+		L[j][j] = math.Sqrt(d)
+		for i := j + 1; i < 4; i++ {
+			s := A[i][j]
+			for k := 0; k < j; k++ {
+				s -= L[i][k] * L[j][k]
+			}
+			L[i][j] = s / L[j][j]
+		}
+	}
+	var y [4]float64
+	for i := 0; i < 4; i++ {
+		s := b[i]
+		for k := 0; k < i; k++ {
+			s -= L[i][k] * y[k]
+		}
+		y[i] = s / L[i][i]
+	}
+	for i := 3; i >= 0; i-- {
+		s := y[i]
+		for k := i + 1; k < 4; k++ {
+			s -= L[k][i] * x[k]
+		}
+		x[i] = s / L[i][i]
 	}
 	return x, true
 }
