@@ -15,7 +15,7 @@ const Width = 160
 
 // Meter computes the motion energy of a stream of frames: the mean absolute
 // difference, in grey levels, between consecutive frames shrunk to Width
-// pixels wide (area averaging) and with each frame's mean brightness scaled
+// pixels wide (area averaging, then turned grey) and with each frame's mean brightness scaled
 // to 128, so a global flicker of the lights does not read as motion.
 // A Meter is not safe for concurrent use.
 type Meter struct {
@@ -37,23 +37,26 @@ func (m *Meter) Add(img gocv.Mat) float64 {
 		m.have = false
 		return math.NaN()
 	}
-	switch img.Channels() {
-	case 3:
-		gocv.CvtColor(img, &m.grey, gocv.ColorBGRToGray)
-	case 4:
-		gocv.CvtColor(img, &m.grey, gocv.ColorBGRAToGray)
-	default:
-		img.CopyTo(&m.grey)
-	}
+	// Shrink first, then turn grey: both are weighted averages, so the
+	// order changes only rounding, and the colour conversion then runs on
+	// a 64th of the pixels.
 	w := Width
-	if m.grey.Cols() < w {
-		w = m.grey.Cols()
+	if img.Cols() < w {
+		w = img.Cols()
 	}
-	h := int(math.Round(float64(m.grey.Rows()) * float64(w) / float64(m.grey.Cols())))
+	h := int(math.Round(float64(img.Rows()) * float64(w) / float64(img.Cols())))
 	if h < 1 {
 		h = 1
 	}
-	gocv.Resize(m.grey, &m.small, image.Pt(w, h), 0, 0, gocv.InterpolationArea)
+	gocv.Resize(img, &m.grey, image.Pt(w, h), 0, 0, gocv.InterpolationArea)
+	switch m.grey.Channels() {
+	case 3:
+		gocv.CvtColor(m.grey, &m.small, gocv.ColorBGRToGray)
+	case 4:
+		gocv.CvtColor(m.grey, &m.small, gocv.ColorBGRAToGray)
+	default:
+		m.grey.CopyTo(&m.small)
+	}
 	mean := m.small.Mean().Val1
 	scale := 1.0
 	if mean > 1 {

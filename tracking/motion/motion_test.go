@@ -96,9 +96,9 @@ func TestMeterMatchesPythonOpenCV(t *testing.T) {
 import sys, cv2, numpy as np
 prev = None
 for p in sys.argv[1:]:
-    g = cv2.cvtColor(cv2.imread(p), cv2.COLOR_BGR2GRAY)
-    w = min(160, g.shape[1]); h = max(1, int(round(g.shape[0] * w / g.shape[1])))
-    s = cv2.resize(g, (w, h), interpolation=cv2.INTER_AREA).astype(np.float64)
+    c = cv2.imread(p)
+    w = min(160, c.shape[1]); h = max(1, int(round(c.shape[0] * w / c.shape[1])))
+    s = cv2.cvtColor(cv2.resize(c, (w, h), interpolation=cv2.INTER_AREA), cv2.COLOR_BGR2GRAY).astype(np.float64)
     mu = s.mean()
     s = s * (128.0 / mu if mu > 1 else 1.0)
     print(0.0 if prev is None else float(np.abs(s - prev).mean()))
