@@ -637,6 +637,19 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 	return -1, ""
 }
 
+// jumpLevel is the level a jump must pass, max(mean + 10 sigma, floor,
+// factor x mean) of the baseline values base, with their mean and sigma
+// (the larger of the plain and the difference-based estimate); ok is false
+// with fewer than three finite baseline values.
+func jumpLevel(base []float64, floor, factor float64) (level, mu, sd float64, ok bool) {
+	mu, sd, cnt := meanStd(base)
+	if cnt < 3 {
+		return 0, 0, 0, false
+	}
+	sd = math.Max(sd, diffSigma(base))
+	return math.Max(math.Max(mu+10*sd, floor), factor*mu), mu, sd, true
+}
+
 // diffSigma estimates the noise of a series from its frame-to-frame
 // differences, robustly (1.4826 MAD / sqrt 2), so slow trends and a few
 // jumps do not count as noise.
@@ -809,12 +822,10 @@ const CollapseSpeedMM = 0.5
 // returns where that rise began (the last rise through half that level)
 // and f; -1, -1 when none.
 func jumpStart(x []float64, nb int, floor, factor float64) (start, f int) {
-	mu, sd, cnt := meanStd(x[:min(nb, len(x))])
-	if cnt < 3 {
+	level, mu, sd, ok := jumpLevel(x[:min(nb, len(x))], floor, factor)
+	if !ok {
 		return -1, -1
 	}
-	sd = math.Max(sd, diffSigma(x[:min(nb, len(x))]))
-	level := math.Max(math.Max(mu+10*sd, floor), factor*mu)
 	f = -1
 	for r := nb; r < len(x); r++ {
 		if x[r] >= level && (r+1 >= len(x) || x[r+1] >= level || math.IsNaN(x[r+1])) {
