@@ -98,7 +98,11 @@ prev = None
 for p in sys.argv[1:]:
     c = cv2.imread(p)
     w = min(160, c.shape[1]); h = max(1, int(round(c.shape[0] * w / c.shape[1])))
-    s = cv2.cvtColor(cv2.resize(c, (w, h), interpolation=cv2.INTER_AREA), cv2.COLOR_BGR2GRAY).astype(np.float64)
+    while c.shape[1] >= 2 * w and c.shape[0] >= 2 * h:
+        c = cv2.resize(c, (c.shape[1] // 2, c.shape[0] // 2), interpolation=cv2.INTER_AREA)
+    if (c.shape[1], c.shape[0]) != (w, h):
+        c = cv2.resize(c, (w, h), interpolation=cv2.INTER_AREA)
+    s = cv2.cvtColor(c, cv2.COLOR_BGR2GRAY).astype(np.float64)
     mu = s.mean()
     s = s * (128.0 / mu if mu > 1 else 1.0)
     print(0.0 if prev is None else float(np.abs(s - prev).mean()))
