@@ -4,8 +4,9 @@
 // load stamped on; a contact sheet across the failure window; and a short
 // annotated clip of the failure window (Motion-JPEG AVI).
 //
-// Frames are read again from the clip only where they are needed (seeking
-// over the rest), so memory stays bounded and the clip is not decoded twice.
+// The frames come from those kept during the pass over the clip (a Keeper,
+// at the reduced evidence size) where it holds them; any other frame is read
+// again from the clip, seeking over the rest, and shrunk to the same size.
 package evidence
 
 import (
@@ -44,6 +45,10 @@ type Overlay struct {
 	BowFrac map[string][]float64
 	// FirstMember is highlighted; "" for none.
 	FirstMember string
+	// Width is the clip's frame width, in which the tracks are given; a
+	// frame drawn at another width has the points scaled to it. 0 = the
+	// frame is drawn at the clip's size.
+	Width int
 }
 
 // Shot is one annotated frame to save as a PNG.
@@ -71,6 +76,12 @@ type Request struct {
 	// Have holds frames already decoded (such as the reference frame), used
 	// instead of reading them again; the caller keeps ownership.
 	Have map[int]gocv.Mat
+	// Kept holds frames kept from the pass over the clip, used before
+	// reading the clip again; nil = none.
+	Kept *Keeper
+	// Size is the size the frames are drawn at; zero = the clip's size
+	// (or the keeper's, when Kept is set).
+	Size image.Point
 }
 
 // Written is one file written.
@@ -158,6 +169,13 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 		}
 	}()
 
+	size := req.Size
+	if size == (image.Point{}) {
+		size = image.Pt(info.Width, info.Height)
+		if req.Kept != nil {
+			size = req.Kept.Size()
+		}
+	}
 	img := gocv.NewMat()
 	defer img.Close()
 	work := gocv.NewMat()
@@ -171,6 +189,8 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 		var frame gocv.Mat
 		if have, ok := req.Have[f]; ok && !have.Empty() {
 			frame = have
+		} else if req.Kept != nil && req.Kept.Frame(f, &img) {
+			frame = img
 		} else {
 			if pos < 0 || f < pos || f-pos > seekGap {
 				if pos >= 0 && f > pos && f-pos <= grabGap {
@@ -197,7 +217,11 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 			}
 			frame = img
 		}
-		frame.CopyTo(&work)
+		if frame.Cols() != size.X || frame.Rows() != size.Y {
+			gocv.Resize(frame, &work, size, 0, 0, gocv.InterpolationArea)
+		} else {
+			frame.CopyTo(&work)
+		}
 		stamp := ""
 		if req.Stamp != nil {
 			stamp = req.Stamp(f)
@@ -325,6 +349,14 @@ func (o *Overlay) Draw(img *gocv.Mat, frame int, stamp string) {
 	w := img.Cols()
 	scale := math.Max(0.5, float64(w)/1280)
 	thick := int(math.Max(1, math.Round(2*scale)))
+	k := 1.0 // clip pixels to frame pixels
+	if o.Width > 0 && w > 0 {
+		k = float64(w) / float64(o.Width)
+	}
+	at := func(x, y float64) image.Point {
+		// Pixel centres: clip pixel x covers [x-0.5, x+0.5).
+		return image.Pt(int(math.Round((x+0.5)*k-0.5)), int(math.Round((y+0.5)*k-0.5)))
+	}
 	row := -1
 	if o.Tracks != nil {
 		row = o.Tracks.Row(frame)
@@ -337,7 +369,7 @@ func (o *Overlay) Draw(img *gocv.Mat, frame int, stamp string) {
 		if !ok || s.Lost || math.IsNaN(s.X) || math.IsNaN(s.Y) {
 			return image.Point{}, false
 		}
-		return image.Pt(int(math.Round(s.X)), int(math.Round(s.Y))), true
+		return at(s.X, s.Y), true
 	}
 	if o.Marks != nil && row >= 0 {
 		// Members: the first member last, so it is on top.
@@ -389,7 +421,7 @@ func (o *Overlay) Draw(img *gocv.Mat, frame int, stamp string) {
 				gocv.Circle(img, q, int(math.Max(3, 4*scale)), color.RGBA{R: 0, G: 170, B: 255}, thick)
 			} else if s, ok := o.Tracks.At(row, p.ID); ok && s.Lost {
 				// A lost point: a small cross at its marked place.
-				c := image.Pt(int(p.PX[0]), int(p.PX[1]))
+				c := at(p.PX[0], p.PX[1])
 				d := int(4 * scale)
 				gocv.Line(img, c.Add(image.Pt(-d, -d)), c.Add(image.Pt(d, d)), color.RGBA{R: 255, G: 60}, thick)
 				gocv.Line(img, c.Add(image.Pt(-d, d)), c.Add(image.Pt(d, -d)), color.RGBA{R: 255, G: 60}, thick)
