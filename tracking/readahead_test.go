@@ -10,6 +10,7 @@ import (
 
 	"github.com/failframe/failframe/capture"
 	"github.com/failframe/failframe/tracking/marks"
+	"github.com/failframe/failframe/tracking/tracks"
 )
 
 // TestTrackSameAsSequential checks that Track, which decodes ahead on its own
@@ -36,7 +37,7 @@ func TestTrackSameAsSequential(t *testing.T) {
 			}
 			defer src.Close()
 			var sums []float64
-			got, err := Track(src, m, DefaultOptions(), tc.rng, Hooks{OnFrame: func(_ int, img gocv.Mat) error {
+			got, err := Track(src, m, DefaultOptions(), tc.rng, Hooks{OnFrame: func(_ int, img gocv.Mat, _ []tracks.Sample) error {
 				sums = append(sums, img.Sum().Val1+img.Sum().Val2+img.Sum().Val3)
 				return nil
 			}})

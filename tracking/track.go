@@ -23,8 +23,10 @@ type Range struct {
 // Hooks let a caller share the decoded frames and follow progress.
 type Hooks struct {
 	// OnFrame, when set, is called with every decoded frame (BGR) after it
-	// has been tracked; an error stops tracking and is returned.
-	OnFrame func(frame int, img gocv.Mat) error
+	// has been tracked, with the frame's samples (in the marks' point order;
+	// not to be kept: copy what is needed); an error stops tracking and is
+	// returned.
+	OnFrame func(frame int, img gocv.Mat, samples []tracks.Sample) error
 	// Progress, when set, is called after each frame with the frames done and
 	// the total (0 when the total is not known).
 	Progress func(done, total int)
@@ -140,7 +142,7 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		out.Frames = append(out.Frames, frame)
 		out.Samples = append(out.Samples, s)
 		if hooks.OnFrame != nil {
-			if err := hooks.OnFrame(frame, *fr.img); err != nil {
+			if err := hooks.OnFrame(frame, *fr.img, s); err != nil {
 				return nil, err
 			}
 		}

@@ -15,6 +15,7 @@ import (
 
 	"github.com/failframe/failframe/capture"
 	"github.com/failframe/failframe/tracking/marks"
+	"github.com/failframe/failframe/tracking/tracks"
 )
 
 // writeShiftClip writes a small MJPG clip of a textured plate moving 0.25 px
@@ -64,7 +65,7 @@ func TestTrackRangeAndHooks(t *testing.T) {
 	var seen []int
 	var lastDone, lastTotal int
 	tr, err := Track(src, m, DefaultOptions(), Range{From: 8, To: 20}, Hooks{
-		OnFrame:  func(frame int, img gocv.Mat) error { seen = append(seen, frame); return nil },
+		OnFrame:  func(frame int, img gocv.Mat, _ []tracks.Sample) error { seen = append(seen, frame); return nil },
 		Progress: func(done, total int) { lastDone, lastTotal = done, total },
 	})
 	if err != nil {
@@ -92,7 +93,7 @@ func TestTrackRangeAndHooks(t *testing.T) {
 	// A hook error stops tracking and comes back.
 	stop := errors.New("enough")
 	if _, err := Track(src, m, DefaultOptions(), Range{From: 0, To: -1}, Hooks{
-		OnFrame: func(int, gocv.Mat) error { return stop },
+		OnFrame: func(int, gocv.Mat, []tracks.Sample) error { return stop },
 	}); !errors.Is(err, stop) {
 		t.Errorf("hook error: got %v", err)
 	}

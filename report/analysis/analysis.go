@@ -214,19 +214,41 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 		return nil, &InputError{fmt.Errorf("--sync frame %d is negative", cfg.Sync.Frame)}
 	}
 
-	// One pass over the frames: tracking, motion energy, the reference frame.
+	// One pass over the frames: tracking, motion energy, the reference
+	// frame, and the frames the evidence will be drawn from (kept shrunk:
+	// sparse, and every frame around the first sign of the tower going, as
+	// measure.CollapseWatch sees it).
 	prog.stage("tracking")
 	meter := motion.NewMeter()
 	defer meter.Close()
 	energyAt := map[int]float64{}
 	refFrame := gocv.NewMat()
 	defer refFrame.Close()
+	kept := evidence.NewKeeper(evidence.DefaultKeep, info.Width, info.Height)
+	defer kept.Close()
+	expected := 0
+	if info.FrameCount > 0 {
+		expected = info.FrameCount - rng.From
+		if rng.To >= 0 {
+			expected = min(expected, rng.To-rng.From+1)
+		}
+	}
+	watch := measure.NewCollapseWatch(expected)
+	rows := 0 // frames tracked so far
 	tr, err := tracking.Track(src, m, tracking.DefaultOptions(), rng, tracking.Hooks{
-		OnFrame: func(frame int, img gocv.Mat) error {
-			energyAt[frame] = meter.Add(img)
+		OnFrame: func(frame int, img gocv.Mat, samples []tracks.Sample) error {
+			// The motion energy is measured on the frame as kept (its
+			// 160-pixel comparison width is far below the evidence size).
+			small := kept.Add(frame, img)
+			e := meter.Add(small)
+			energyAt[frame] = e
 			if frame == m.ReferenceFrame {
 				img.CopyTo(&refFrame)
 			}
+			if r, found := watch.Add(e, samples); found {
+				kept.Sign(frame - (rows - r))
+			}
+			rows++
 			return nil
 		},
 		Progress: prog.Frames,
@@ -241,6 +263,9 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 			e = math.NaN()
 		}
 		energy[i] = e
+	}
+	if err := kept.Err(); err != nil {
+		warn("%v; those evidence frames are read from the clip again", err)
 	}
 	lost := lostSummary(tr)
 	if lost != "" {
@@ -349,7 +374,7 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 	}
 	evDone := make(chan evResult, 1)
 	go func() {
-		out, err := w.evidence(src, have)
+		out, err := w.evidence(src, have, kept)
 		evDone <- evResult{out, err}
 	}()
 	err = w.csvs()

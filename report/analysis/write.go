@@ -386,12 +386,25 @@ func (w *writer) eventFrame(kind, member string) int {
 	return -1
 }
 
-// evidence renders the evidence frames; it only reads w, so it may run
-// beside csvs and plots.
-func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) ([]evidence.Written, error) {
+// evidence renders the evidence frames from those kept during the pass
+// (kept may be nil), reading the clip again only for frames it lacks; it
+// only reads w, so it may run beside csvs and plots.
+func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat, kept *evidence.Keeper) ([]evidence.Written, error) {
 	first, last := w.tr.Frames[0], w.tr.Frames[w.tr.Len()-1]
 	fm := w.res.FirstMember
+	// pick returns frame f, or the nearest frame kept within half the
+	// sparse spacing (so no second read of the clip is needed for it).
+	pick := func(f int) int {
+		if kept == nil || kept.Has(f) {
+			return f
+		}
+		if n, ok := kept.Nearest(f, evidence.DefaultKeep.Every/2); ok && n >= first && n <= last {
+			return n
+		}
+		return f
+	}
 	onset := w.eventFrame("onset", fm)
+	onsetWhat := nonEmpty(fm, "the twist")
 	if onset < 0 {
 		onset = w.eventFrame("twist_onset", "")
 	}
@@ -404,14 +417,19 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) ([]evidence
 	}
 	shots = append(shots, evidence.Shot{Frame: ref, File: "reference.png", Caption: fmt.Sprintf("Reference frame %d: the marked points and members", ref)})
 	if onset >= 0 {
-		shots = append(shots, evidence.Shot{Frame: onset, File: "onset.png", Caption: fmt.Sprintf("Frame %d: onset of %s", onset, nonEmpty(fm, "the twist"))})
+		f := pick(onset)
+		caption := fmt.Sprintf("Frame %d: onset of %s", f, onsetWhat)
+		if f != onset {
+			caption = fmt.Sprintf("Frame %d: %s the onset of %s (frame %d)", f, framesAway(f-onset), onsetWhat, onset)
+		}
+		shots = append(shots, evidence.Shot{Frame: f, File: "onset.png", Caption: caption})
 	}
 	if brk >= 0 {
 		k := 3
 		if onset >= 0 && brk-onset < 2*k {
 			k = max(1, (brk-onset)/2)
 		}
-		if pre := brk - k; pre > onset && pre >= first {
+		if pre := pick(brk - k); pre > onset && pre < brk && pre >= first {
 			shots = append(shots, evidence.Shot{Frame: pre, File: "before_break.png", Caption: fmt.Sprintf("Frame %d: just before %s breaks", pre, fm)})
 		}
 		shots = append(shots, evidence.Shot{Frame: brk, File: "break.png", Caption: fmt.Sprintf("Frame %d: %s breaks", brk, fm)})
@@ -447,10 +465,20 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) ([]evidence
 	var sheet []int
 	n := min(12, we-ws+1)
 	for i := 0; i < n; i++ {
-		sheet = append(sheet, ws+int(math.Round(float64(i)*float64(we-ws)/math.Max(1, float64(n-1)))))
+		f := pick(ws + int(math.Round(float64(i)*float64(we-ws)/math.Max(1, float64(n-1)))))
+		if len(sheet) == 0 || f > sheet[len(sheet)-1] {
+			sheet = append(sheet, f)
+		}
 	}
-	// The clip: the last part of the window, at most maxClipFrames long.
+	// The clip: the last part of the window, at most maxClipFrames long; or,
+	// where the frames kept during the pass cover a good part of the window
+	// without a gap, that run (no second read of the clip).
 	cs := max(ws, we-maxClipFrames+1)
+	if kept != nil {
+		if a, b := keptRun(kept, ws, we); b-a+1 >= min(minKeptClip, we-ws+1) {
+			cs, we = max(a, b-maxClipFrames+1), b
+		}
+	}
 	eventAt := map[int]string{}
 	for _, e := range w.res.Events {
 		label := strings.ReplaceAll(e.Kind, "_", " ")
@@ -477,16 +505,55 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat) ([]evidence
 	for _, m := range w.meas.Members {
 		bow[m.ID] = m.BowFrac
 	}
-	ov := &evidence.Overlay{Marks: w.m, Tracks: w.tr, BowFrac: bow, FirstMember: fm}
-	req := evidence.Request{Shots: shots, Sheet: sheet, ClipFrom: cs, ClipTo: we, ClipFPS: 30, Stamp: stamp, Have: have}
+	ov := &evidence.Overlay{Marks: w.m, Tracks: w.tr, BowFrac: bow, FirstMember: fm, Width: w.res.Clip.Width}
+	req := evidence.Request{Shots: shots, Sheet: sheet, ClipFrom: cs, ClipTo: we, ClipFPS: 30, Stamp: stamp, Have: have,
+		Kept: kept, Size: evidence.Size(w.res.Clip.Width, w.res.Clip.Height)}
 	return evidence.Render(src, ov, req, filepath.Join(w.dir, "evidence"))
+}
+
+// minKeptClip is the shortest run of kept frames the failure clip is made
+// from instead of reading the clip again.
+const minKeptClip = 40
+
+// keptRun returns the longest run of consecutive kept frames within [from,
+// to] (the later of equal runs); b < a when none.
+func keptRun(k *evidence.Keeper, from, to int) (a, b int) {
+	a, b = 0, -1
+	start := -1
+	for f := from; f <= to+1; f++ {
+		if f <= to && k.Has(f) {
+			if start < 0 {
+				start = f
+			}
+			continue
+		}
+		if start >= 0 && f-1-start >= b-a {
+			a, b = start, f-1
+		}
+		start = -1
+	}
+	return a, b
+}
+
+// framesAway says how far frame offset d lies from an event: "2 frames
+// after", "1 frame before".
+func framesAway(d int) string {
+	word := "after"
+	if d < 0 {
+		word, d = "before", -d
+	}
+	if d == 1 {
+		return "1 frame " + word
+	}
+	return fmt.Sprintf("%d frames %s", d, word)
 }
 
 // maxWindowFrames bounds the failure window of the contact sheet.
 const maxWindowFrames = 600
 
-// maxClipFrames bounds the annotated failure clip.
-const maxClipFrames = 200
+// maxClipFrames bounds the annotated failure clip; the frames kept during
+// the pass hold a dense run a little longer than that.
+const maxClipFrames = 120
 
 func nonEmpty(s, alt string) string {
 	if s == "" {

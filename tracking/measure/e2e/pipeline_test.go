@@ -12,6 +12,7 @@ import (
 	"github.com/failframe/failframe/tracking"
 	"github.com/failframe/failframe/tracking/measure"
 	"github.com/failframe/failframe/tracking/motion"
+	"github.com/failframe/failframe/tracking/tracks"
 )
 
 // renderSource serves a synthesizer's frames as a capture.Source, rendering
@@ -88,7 +89,7 @@ func TestPipelineOnRenderedClips(t *testing.T) {
 			var energy []float64
 			to := s.CollapseFrame + 30
 			tk, err := tracking.Track(&renderSource{r: r}, m, tracking.DefaultOptions(), tracking.Range{From: 0, To: to},
-				tracking.Hooks{OnFrame: func(frame int, img gocv.Mat) error {
+				tracking.Hooks{OnFrame: func(frame int, img gocv.Mat, _ []tracks.Sample) error {
 					energy = append(energy, meter.Add(img))
 					return nil
 				}})
