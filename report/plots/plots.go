@@ -5,8 +5,9 @@ package plots
 
 import (
 	"fmt"
+	"image"
 	"image/color"
-	"io"
+	"image/png"
 	"math"
 	"os"
 	"path/filepath"
@@ -80,9 +81,9 @@ func (c Chart) Save(dir, name string) ([]string, error) {
 		return nil, fmt.Errorf("plot %s: %w", name, err)
 	}
 	width, height := vg.Length(w)*vg.Centimeter, vg.Length(h)*vg.Centimeter
-	png := vgimg.PngCanvas{Canvas: vgimg.NewWith(vgimg.UseWH(width, height), vgimg.UseDPI(DPI))}
-	p.Draw(draw.New(png))
-	if err := writeTo(filepath.Join(dir, name+".png"), png); err != nil {
+	cv := vgimg.NewWith(vgimg.UseWH(width, height), vgimg.UseDPI(DPI))
+	p.Draw(draw.New(cv))
+	if err := writePNG(filepath.Join(dir, name+".png"), cv.Image()); err != nil {
 		return nil, fmt.Errorf("plot %s.png: %w", name, err)
 	}
 	if err := p.Save(width, height, filepath.Join(dir, name+".svg")); err != nil {
@@ -94,12 +95,15 @@ func (c Chart) Save(dir, name string) ([]string, error) {
 // DPI is the resolution of the PNG copies.
 const DPI = 144
 
-func writeTo(path string, w io.WriterTo) error {
+// writePNG writes img as a PNG at zlib's fastest level: plots are flat
+// colour and compress well at any level.
+func writePNG(path string, img image.Image) error {
 	f, err := os.Create(path)
 	if err != nil {
 		return err
 	}
-	if _, err := w.WriteTo(f); err != nil {
+	enc := png.Encoder{CompressionLevel: png.BestSpeed}
+	if err := enc.Encode(f, img); err != nil {
 		f.Close()
 		return err
 	}
