@@ -130,8 +130,8 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 	for _, f := range req.Sheet {
 		want[f] = true
 	}
-	clip := req.ClipTo >= req.ClipFrom
-	if clip {
+	wantClip := req.ClipTo >= req.ClipFrom
+	if wantClip {
 		for f := req.ClipFrom; f <= req.ClipTo; f++ {
 			want[f] = true
 		}
@@ -161,11 +161,12 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 		}
 	}()
 
-	var writer *gocv.VideoWriter
-	var clipSize image.Point
+	// The clip is compressed and written on its own goroutine while the
+	// next frames are drawn.
+	var clip *clipSink
 	defer func() {
-		if writer != nil {
-			writer.Close()
+		if clip != nil {
+			clip.close()
 		}
 	}()
 
@@ -246,35 +247,36 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 			}
 			thumbs[i] = &t
 		}
-		if clip && f >= req.ClipFrom && f <= req.ClipTo {
-			if writer == nil {
-				clipSize = image.Pt(work.Cols(), work.Rows())
-				if clipSize.X > maxClipWidth {
-					clipSize = image.Pt(maxClipWidth, int(math.Round(float64(work.Rows())*maxClipWidth/float64(work.Cols())))&^1)
+		if wantClip && f >= req.ClipFrom && f <= req.ClipTo {
+			if clip == nil {
+				size := image.Pt(work.Cols(), work.Rows())
+				if size.X > maxClipWidth {
+					size = image.Pt(maxClipWidth, int(math.Round(float64(work.Rows())*maxClipWidth/float64(work.Cols())))&^1)
 				}
 				fps := req.ClipFPS
 				if fps <= 0 {
 					fps = 30
 				}
 				var err error
-				writer, err = gocv.VideoWriterFile(filepath.Join(dir, ClipFile), "MJPG", fps, clipSize.X, clipSize.Y, true)
-				if err != nil || !writer.IsOpened() {
-					return out, fmt.Errorf("evidence: open %s for writing: %v", ClipFile, err)
+				if clip, err = newClipSink(filepath.Join(dir, ClipFile), size, fps); err != nil {
+					return out, fmt.Errorf("evidence: open %s for writing: %w", ClipFile, err)
 				}
 			}
-			if clipSize.X != work.Cols() {
-				gocv.Resize(work, &small, clipSize, 0, 0, gocv.InterpolationArea)
-				if err := writer.Write(small); err != nil {
-					return out, fmt.Errorf("evidence: write %s: %w", ClipFile, err)
-				}
-			} else if err := writer.Write(work); err != nil {
+			frame := work.Clone()
+			if clip.size.X != work.Cols() {
+				gocv.Resize(work, &frame, clip.size, 0, 0, gocv.InterpolationArea)
+			}
+			if err := clip.add(frame); err != nil {
 				return out, fmt.Errorf("evidence: write %s: %w", ClipFile, err)
 			}
 		}
 	}
-	if writer != nil {
-		writer.Close()
-		writer = nil
+	if clip != nil {
+		err := clip.close()
+		clip = nil
+		if err != nil {
+			return out, fmt.Errorf("evidence: write %s: %w", ClipFile, err)
+		}
 		out = append(out, Written{File: filepath.ToSlash(filepath.Join(filepath.Base(dir), ClipFile))})
 	}
 	if len(req.Sheet) > 0 {
@@ -285,6 +287,64 @@ func Render(src capture.Source, ov *Overlay, req Request, dir string) ([]Written
 			Caption: fmt.Sprintf("Contact sheet: %d frames across the failure window, in order left to right, top to bottom", len(req.Sheet))})
 	}
 	return out, nil
+}
+
+// clipQuality is the JPEG quality of the failure clip's frames.
+const clipQuality = 90
+
+// clipSink compresses and writes the clip's frames on its own goroutine.
+type clipSink struct {
+	size   image.Point
+	frames chan gocv.Mat
+	done   chan error
+	failed chan struct{}
+	closed bool
+}
+
+func newClipSink(path string, size image.Point, fps float64) (*clipSink, error) {
+	w, err := newAVIWriter(path, size.X, size.Y, fps, clipQuality)
+	if err != nil {
+		return nil, err
+	}
+	c := &clipSink{size: size, frames: make(chan gocv.Mat, 4), done: make(chan error, 1), failed: make(chan struct{})}
+	go func() {
+		var werr error
+		for m := range c.frames {
+			if werr == nil {
+				if werr = w.Write(m); werr != nil {
+					close(c.failed)
+				}
+			}
+			m.Close()
+		}
+		if err := w.Close(); werr == nil {
+			werr = err
+		}
+		c.done <- werr
+	}()
+	return c, nil
+}
+
+// add hands a frame (owned by the sink from then on) to the writer; it
+// fails once the writer has failed.
+func (c *clipSink) add(m gocv.Mat) error {
+	select {
+	case <-c.failed:
+		m.Close()
+		return c.close()
+	case c.frames <- m:
+		return nil
+	}
+}
+
+// close waits for the frames to be written and the file closed.
+func (c *clipSink) close() error {
+	if c.closed {
+		return nil
+	}
+	c.closed = true
+	close(c.frames)
+	return <-c.done
 }
 
 // writeSheet tiles the thumbnails four to a row.
