@@ -377,9 +377,16 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 		out, err := w.evidence(src, have, kept)
 		evDone <- evResult{out, err}
 	}()
-	err = w.csvs()
+	// The charts are listed (in page order), then drawn on two goroutines
+	// while a third writes the CSV files.
+	err = w.plots()
 	if err == nil {
-		err = w.plots()
+		csvDone := make(chan error, 1)
+		go func() { csvDone <- w.csvs() }()
+		err = w.drawPlots(2)
+		if cerr := <-csvDone; err == nil {
+			err = cerr
+		}
 	}
 	ev := <-evDone
 	if err != nil {

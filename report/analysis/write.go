@@ -9,6 +9,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 
 	"gocv.io/x/gocv"
 
@@ -36,6 +37,7 @@ type writer struct {
 	al     *align.Result
 	energy []float64
 	files  []string
+	charts []namedChart // listed by plot, drawn by drawPlots
 }
 
 // num formats a CSV number: empty for NaN, otherwise at most 6 decimals.
@@ -147,16 +149,49 @@ func (w *writer) csvs() error {
 }
 
 // plot saves a chart into plots/ and records it as a figure.
+// plot adds a chart to the report: its files and figure are listed now, in
+// page order, and it is drawn by drawPlots.
 func (w *writer) plot(c plots.Chart, name, caption string) error {
-	files, err := c.Save(filepath.Join(w.dir, "plots"), name)
-	if err != nil {
-		return fmt.Errorf("write report: %w", err)
-	}
-	for _, f := range files {
-		w.files = append(w.files, "plots/"+f)
-	}
-	w.res.Figures = append(w.res.Figures, report.Figure{File: "plots/" + files[0], SVG: "plots/" + files[1], Kind: "plot", Caption: caption})
+	w.charts = append(w.charts, namedChart{c, name})
+	png, svg := "plots/"+name+".png", "plots/"+name+".svg"
+	w.files = append(w.files, png, svg)
+	w.res.Figures = append(w.res.Figures, report.Figure{File: png, SVG: svg, Kind: "plot", Caption: caption})
 	return nil
+}
+
+// namedChart is a chart waiting to be drawn into plots/name.png and .svg.
+type namedChart struct {
+	plots.Chart
+	name string
+}
+
+// drawPlots draws the charts listed by plot, on up to workers goroutines.
+func (w *writer) drawPlots(workers int) error {
+	jobs := make(chan namedChart)
+	errs := make(chan error, len(w.charts))
+	var wg sync.WaitGroup
+	for i := 0; i < max(1, workers); i++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for c := range jobs {
+				files, err := c.Save(filepath.Join(w.dir, "plots"), c.name)
+				if err == nil && (len(files) != 2 || files[0] != c.name+".png" || files[1] != c.name+".svg") {
+					err = fmt.Errorf("plot %s wrote %v", c.name, files)
+				}
+				if err != nil {
+					errs <- fmt.Errorf("write report: %w", err)
+				}
+			}
+		}()
+	}
+	for _, c := range w.charts {
+		jobs <- c
+	}
+	close(jobs)
+	wg.Wait()
+	close(errs)
+	return <-errs // nil when none
 }
 
 func (w *writer) eventMarks(kinds ...string) []plots.Mark {
