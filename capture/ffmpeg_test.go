@@ -182,6 +182,21 @@ func ffprobeValue(t testing.TB, path, entry string) string {
 	return strings.TrimSpace(strings.Split(out, "\n")[0])
 }
 
+// ffprobeAllIntra reports whether ffprobe finds every frame of the clip's
+// video stream to be an intra (I) frame.
+func ffprobeAllIntra(t testing.TB, path string) bool {
+	t.Helper()
+	out := run(t, "ffprobe", "-v", "error", "-select_streams", "v:0",
+		"-show_entries", "frame=pict_type", "-of", "csv=p=0", path)
+	types := strings.Fields(out)
+	for _, p := range types {
+		if strings.Trim(p, ",") != "I" {
+			return false
+		}
+	}
+	return len(types) > 0
+}
+
 // matMD5 is the MD5 of a BGR Mat's pixel bytes, as framemd5 computes it for bgr24.
 func matMD5(m gocv.Mat) string {
 	return fmt.Sprintf("%x", md5.Sum(m.ToBytes()))

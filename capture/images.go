@@ -175,6 +175,7 @@ func openImages(dir string, opt Options) (Source, error) {
 		FrameCount:   len(s.files),
 		CountSource:  "counted",
 		Warnings:     warnings,
+		IntraOnly:    true,
 	}
 	return s, nil
 }

@@ -62,7 +62,7 @@ func TestImageFolderNaturalOrder(t *testing.T) {
 			}
 			defer src.Close()
 			info := src.Info()
-			if info.FrameCount != 12 || info.Width != 96 || info.Height != 64 || info.ContainerFPS != 1000 || len(info.Warnings) != 0 {
+			if info.FrameCount != 12 || info.Width != 96 || info.Height != 64 || info.ContainerFPS != 1000 || len(info.Warnings) != 0 || !info.IntraOnly {
 				t.Fatalf("info %+v", info)
 			}
 			good, bad := readAll(t, src)

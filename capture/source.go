@@ -16,6 +16,7 @@ package capture
 
 import (
 	"fmt"
+	"strings"
 
 	"gocv.io/x/gocv"
 )
@@ -38,6 +39,27 @@ type Info struct {
 	// Warnings are problems found on opening that do not stop reading, such
 	// as a gap in an image folder's numbering.
 	Warnings []string
+	// IntraOnly is true when every frame decodes on its own (still images,
+	// Motion-JPEG, uncompressed and other intra-frame codecs), so reading
+	// one frame again costs one frame's decoding, not a run from a key frame.
+	IntraOnly bool
+}
+
+// intraCodecs are codec tags (lower case) whose frames all decode on their
+// own: Motion-JPEG, JPEG, PNG, uncompressed and packed YUV, FFV1, ProRes,
+// DNxHD and DV (common practice: none of them predicts one frame from
+// another).
+var intraCodecs = map[string]bool{
+	"mjpg": true, "mjpa": true, "mjpb": true, "avdj": true, "jpeg": true, "dmb1": true,
+	"png": true, "mpng": true, "raw": true, "rgb": true, "i420": true, "iyuv": true,
+	"yv12": true, "yuy2": true, "uyvy": true, "y800": true, "grey": true, "ffv1": true,
+	"apch": true, "apcn": true, "apcs": true, "apco": true, "ap4h": true,
+	"avdn": true, "avdh": true, "dvsd": true, "dvhd": true, "dv25": true, "dv50": true,
+}
+
+// IntraCodec reports whether the codec tag names an intra-frame-only codec.
+func IntraCodec(tag string) bool {
+	return intraCodecs[strings.ToLower(strings.TrimSpace(tag))]
 }
 
 // Source streams the frames of a clip. Frame numbers start at 0.

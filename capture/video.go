@@ -120,6 +120,7 @@ func openVideo(path string, opt Options) (Source, error) {
 		return nil, &ClipError{Path: path, Err: err}
 	}
 	s.info.Codec = codecName(s.vc)
+	s.info.IntraOnly = IntraCodec(s.info.Codec)
 	s.info.ContainerFPS = s.vc.Get(gocv.VideoCaptureFPS)
 	if math.IsNaN(s.info.ContainerFPS) || math.IsInf(s.info.ContainerFPS, 0) || s.info.ContainerFPS < 0 {
 		s.info.ContainerFPS = 0

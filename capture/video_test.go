@@ -83,6 +83,10 @@ func TestReadMatchesFFmpeg(t *testing.T) {
 			if info.Codec != tt.codec {
 				t.Errorf("codec %q, want %q", info.Codec, tt.codec)
 			}
+			// Outside check: ffprobe's picture types, all I for an intra-only codec.
+			if intra := ffprobeAllIntra(t, clip); info.IntraOnly != intra {
+				t.Errorf("intra only %v, ffprobe finds every frame intra: %v", info.IntraOnly, intra)
+			}
 			if w := ffprobeValue(t, clip, "width"); w != itoa(info.Width) {
 				t.Errorf("width %d, ffprobe says %s", info.Width, w)
 			}

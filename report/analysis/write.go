@@ -427,10 +427,12 @@ func (w *writer) eventFrame(kind, member string) int {
 func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat, kept *evidence.Keeper) ([]evidence.Written, error) {
 	first, last := w.tr.Frames[0], w.tr.Frames[w.tr.Len()-1]
 	fm := w.res.FirstMember
-	// pick returns frame f, or the nearest frame kept within half the
-	// sparse spacing (so no second read of the clip is needed for it).
+	// pick returns frame f, or, when reading it again would mean decoding
+	// from a key frame, the nearest frame kept within half the sparse
+	// spacing.
+	intra := src.Info().IntraOnly
 	pick := func(f int) int {
-		if kept == nil || kept.Has(f) {
+		if kept == nil || intra || kept.Has(f) {
 			return f
 		}
 		if n, ok := kept.Nearest(f, evidence.DefaultKeep.Every/2); ok && n >= first && n <= last {
