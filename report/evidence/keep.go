@@ -58,22 +58,23 @@ const keepQuality = 90
 // memory is bounded by the policy's Max frames however long the clip is.
 // A Keeper is not safe for concurrent use.
 type Keeper struct {
-	pol    KeepPolicy
-	size   image.Point
-	small  gocv.Mat
-	recent []gocv.Mat // the last Before frames taken, shrunk (a ring)
-	recNum []int      // their frame numbers; -1 = empty slot
-	held   map[int][]byte
-	sign   int // frame of the sign; -1 = none yet
-	newest int
-	err    error
+	pol     KeepPolicy
+	size    image.Point
+	small   gocv.Mat
+	recent  []gocv.Mat // the last Before frames taken, shrunk (a ring)
+	recNum  []int      // their frame numbers; -1 = empty slot
+	held    map[int][]byte
+	sign    int // frame of the sign; -1 = none yet
+	newest  int
+	evicted int // frames up to this one have been let go
+	err     error
 }
 
 // NewKeeper returns a keeper for frames of a w x h clip.
 func NewKeeper(pol KeepPolicy, w, h int) *Keeper {
 	pol.Every = max(1, pol.Every)
 	pol.Before = max(1, pol.Before)
-	k := &Keeper{pol: pol, size: Size(w, h), small: gocv.NewMat(), held: map[int][]byte{}, sign: -1, newest: -1}
+	k := &Keeper{pol: pol, size: Size(w, h), small: gocv.NewMat(), held: map[int][]byte{}, sign: -1, newest: -1, evicted: -1}
 	k.recent = make([]gocv.Mat, pol.Before)
 	k.recNum = make([]int, pol.Before)
 	for i := range k.recent {
@@ -136,11 +137,20 @@ func (k *Keeper) Add(frame int, img gocv.Mat) gocv.Mat {
 	}
 	if k.sign < 0 {
 		// Before any sign, let go of sparse frames older than the span.
-		for n := range k.held {
-			if frame-n >= k.pol.Span {
+		// Normally one frame number a frame; after a long gap, a scan.
+		lo, hi := k.evicted+1, frame-k.pol.Span
+		if hi-lo > 4*len(k.held) {
+			for n := range k.held {
+				if n <= hi {
+					delete(k.held, n)
+				}
+			}
+		} else {
+			for n := lo; n <= hi; n++ {
 				delete(k.held, n)
 			}
 		}
+		k.evicted = max(k.evicted, hi)
 	}
 	return *dst
 }
