@@ -379,3 +379,43 @@ func TestAverageStillStart(t *testing.T) {
 		t.Errorf("averaging 16 still frames: RMS %.4f px, without %.4f px; want at least 20 %% lower", on, off)
 	}
 }
+
+// TestLostPointsDoNotSwapMarkers hides two look-alike markers 14 px apart,
+// then uncovers one of them while the other stays hidden: the still-hidden
+// point must not be taken up on its neighbour's marker (markers are
+// distinct, so two points never share one; common practice), even while
+// the neighbour itself is still lost and not yet taken up again; both must
+// be tracked again once uncovered.
+func TestLostPointsDoNotSwapMarkers(t *testing.T) {
+	for _, c := range []struct {
+		name   string
+		px, qx float64 // first and second point (the first is looked at first each frame)
+	}{{"hidden point first", 100.3, 114.3}, {"hidden point second", 114.3, 100.3}} {
+		t.Run(c.name, func(t *testing.T) {
+			spots := body{shapes: []shape{
+				{x: 100.3, y: 90.6, sigma: 2.2, amp: -75},
+				{x: 114.3, y: 90.6, sigma: 2.2, amp: -75},
+			}, move: slowSway(0.6, 0.4, 120, 0)}
+			sc := &scene{w: 200, h: 160, bg: 120, bodies: []body{spots}, noise: 1.5, seed: 9, occludeV: 120}
+			// c.px is hidden from frame 20 to 79, c.qx from 20 to 49.
+			sc.occlude = func(i int) image.Rectangle {
+				switch {
+				case i >= 20 && i < 50:
+					return image.Rect(86, 76, 129, 106)
+				case i >= 50 && i < 80:
+					x := int(c.px)
+					return image.Rect(x-7, 76, x+7, 106)
+				}
+				return image.Rectangle{}
+			}
+			probes := []probe{{id: "P", x: c.px, y: 90.6}, {id: "Q", x: c.qx, y: 90.6}}
+			st := runSceneCheck(t, sc, probes, 110, DefaultOptions(), 1.0)
+			for j, p := range probes {
+				t.Logf("%s: lost %d frames (%d..%d), RMS while tracked %.4f px", p.id, st[j].lost, st[j].firstLost, st[j].lastLost, st[j].rms)
+				if st[j].lastLost > 95 {
+					t.Errorf("%s still lost at frame %d, long after it was uncovered", p.id, st[j].lastLost)
+				}
+			}
+		})
+	}
+}

@@ -662,6 +662,9 @@ func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, ne
 	region := t.gray.Region(rect)
 	gocv.MatchTemplate(region, p.tmpl, &t.match, gocv.TmCcoeffNormed, t.noMask)
 	region.Close()
+	if unique {
+		t.maskOthers(p, rect, r)
+	}
 	_, peak, _, loc := gocv.MinMaxLoc(t.match)
 	if float64(peak) < need-0.1 {
 		return 0, 0, float64(peak), false
@@ -677,14 +680,16 @@ func (t *Tracker) search(p *pointState, cur grayImage, x, y float64, rad int, ne
 	return res.x, res.y, res.q(), true
 }
 
-// occupied reports whether another point, not lost, is tracked within half
-// a patch (at least 3 px) of where p's template centre (x, y) puts p.
+// occupied reports whether another point is within half a patch (at least
+// 3 px) of where p's template centre (x, y) puts p: where it is tracked, or,
+// for a point lost too, where it was last seen (its marker is most likely
+// still there, hidden or not, and must not be taken for p's).
 func (t *Tracker) occupied(p *pointState, x, y float64) bool {
 	px, py := x+p.d0x, y+p.d0y
 	lim := math.Max(3, float64(p.tp.r)/2)
 	for i := range t.pts {
 		q := &t.pts[i]
-		if q == p || q.lost {
+		if q == p {
 			continue
 		}
 		if math.Hypot(q.cx+q.d0x-px, q.cy+q.d0y-py) < lim {
@@ -692,6 +697,36 @@ func (t *Tracker) occupied(p *pointState, x, y float64) bool {
 		}
 	}
 	return false
+}
+
+// maskOthers blanks, in the correlation map t.match of p's template over
+// rect, the places where p's marker would sit on another point's marker
+// (where that point is tracked, or was last seen): look-alike markers near
+// a lost point neither get taken for it nor make its own match look
+// ambiguous.
+func (t *Tracker) maskOthers(p *pointState, rect image.Rectangle, r int) {
+	vals, err := t.match.DataPtrFloat32()
+	if err != nil || !t.match.IsContinuous() {
+		return
+	}
+	w, h := t.match.Cols(), t.match.Rows()
+	for i := range t.pts {
+		q := &t.pts[i]
+		if q == p {
+			continue
+		}
+		mx := q.cx + q.d0x - p.d0x - float64(rect.Min.X+r)
+		my := q.cy + q.d0y - p.d0y - float64(rect.Min.Y+r)
+		x0, x1 := max(0, int(math.Floor(mx))-r), min(w-1, int(math.Ceil(mx))+r)
+		y0, y1 := max(0, int(math.Floor(my))-r), min(h-1, int(math.Ceil(my))+r)
+		for y := y0; y <= y1; y++ {
+			for x := x0; x <= x1; x++ {
+				if dx, dy := float64(x)-mx, float64(y)-my; dx*dx+dy*dy <= float64(r*r) {
+					vals[y*w+x] = -1
+				}
+			}
+		}
+	}
 }
 
 // standsOut reports whether the correlation peak at loc is at least 0.15
