@@ -5,6 +5,8 @@ import (
 	"math"
 	"sort"
 	"strings"
+
+	"github.com/failframe/failframe/tracking/tracks"
 )
 
 // Failure-mode labels (see the package documentation for each rule).
@@ -593,7 +595,8 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 	}
 	for r := max(from, 1); r < n; r++ {
 		for k, c := range cols {
-			if c >= 0 && in.Tracks.Samples[r][c].Lost && !in.Tracks.Samples[r-1][c].Lost {
+			if c >= 0 && in.Tracks.Samples[r][c].Lost && !in.Tracks.Samples[r-1][c].Lost &&
+				!hiddenOnly(in.Tracks, c, r, math.Max(2, ReappearFrac*m.LengthMM/res0(in))) {
 				return r, fmt.Sprintf("lost track of point %s", m.Points[k])
 			}
 		}
@@ -635,6 +638,25 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 		}
 	}
 	return -1, ""
+}
+
+// ReappearFrac is how far, as a fraction of its member's length, a point
+// lost for a while may turn up from where it was last seen and still count
+// as having been hidden (by a cord, a hand, a falling weight), not broken off.
+const ReappearFrac = 0.02
+
+// hiddenOnly reports whether point column c, lost from row r, is tracked
+// again later within tolPx of where it was last seen: then the loss was
+// something passing in front of it, not its member breaking (a broken-off
+// piece moves away, or stays lost).
+func hiddenOnly(tr *tracks.Tracks, c, r int, tolPx float64) bool {
+	last := tr.Samples[r-1][c]
+	for q := r + 1; q < len(tr.Samples); q++ {
+		if s := tr.Samples[q][c]; !s.Lost {
+			return math.Hypot(s.X-last.X, s.Y-last.Y) <= tolPx
+		}
+	}
+	return false
 }
 
 // jumpLevel is the level a jump must pass, max(mean + 10 sigma, floor,
