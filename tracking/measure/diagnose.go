@@ -149,7 +149,7 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 			f.leg = legOf(m, in)
 		}
 		f.onset, f.change, f.onsetDet = bowOnset(m, nb, end)
-		f.brk, f.brkDet = memberBreak(m, in, nb, f.onset, n)
+		f.brk, f.brkDet = memberBreak(m, in, nb, f.onset, n, end)
 		if f.onset < 0 {
 			// A bow that jumped to the buckling floor without buckling
 			// first is the member breaking or coming off its joint.
@@ -479,6 +479,13 @@ func bowJump(m *Member, end int) (int, string) {
 			from = f
 			continue
 		}
+		// A bow that later settles back near straight for a while was
+		// something passing in front of the member's middle (a cord, a
+		// hand) pulling its tracked point aside, not the member snapping.
+		if back := sustainedBelow(x, 0.25*floor, f); back >= 0 {
+			from = back
+			continue
+		}
 		start := f
 		for r := max(f-JumpRows+1, 1); r <= f; r++ {
 			if !math.IsNaN(x[r]) && !math.IsNaN(x[r-1]) && x[r]-x[r-1] >= 0.15*floor {
@@ -528,6 +535,33 @@ func sustainedAbove(x []float64, level float64, from int) int {
 	return -1
 }
 
+// sustainedBelow returns the first row of the first run of SettleRows
+// tracked rows after from with |x| under level, or -1.
+func sustainedBelow(x []float64, level float64, from int) int {
+	run, first := 0, -1
+	for i := from + 1; i < len(x); i++ {
+		if math.IsNaN(x[i]) {
+			continue
+		}
+		if math.Abs(x[i]) < level {
+			if run == 0 {
+				first = i
+			}
+			run++
+			if run >= SettleRows {
+				return first
+			}
+		} else {
+			run = 0
+		}
+	}
+	return -1
+}
+
+// SettleRows is how many tracked rows a jumped bow must stay near straight
+// afterwards to count as a passing disturbance rather than a break.
+const SettleRows = 10
+
 func prevValid(x []float64, i int) int {
 	for j := i - 1; j >= 0; j-- {
 		if !math.IsNaN(x[j]) {
@@ -537,8 +571,9 @@ func prevValid(x []float64, i int) int {
 	return -1
 }
 
-// memberBreak finds a sudden change after onset (or after the baseline).
-func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
+// memberBreak finds a sudden change after onset (or after the baseline);
+// rows from end on (the collapse) do not count as the bow settling back.
+func memberBreak(m *Member, in Input, nb, onset, n, end int) (int, string) {
 	from := nb
 	if onset >= 0 {
 		from = onset + 1
@@ -624,7 +659,10 @@ func memberBreak(m *Member, in Input, nb, onset, n int) (int, string) {
 				}
 			}
 		}
-		if b, b0 := m.BowMM[r], m.BowMM[r-1]; !math.IsNaN(b) && !math.IsNaN(b0) && b-b0 > math.Max(bowJump, 2*jumpFloor) {
+		if b, b0 := m.BowMM[r], m.BowMM[r-1]; !math.IsNaN(b) && !math.IsNaN(b0) && b-b0 > math.Max(bowJump, 2*jumpFloor) &&
+			// and it stays: a bow that settles back near straight was
+			// something passing in front (see bowJump)
+			(onset >= 0 || sustainedBelow(m.BowMM[:min(end, len(m.BowMM))], 0.25*floor, r) < 0) {
 			return r, fmt.Sprintf("bow jumped from %.1f mm to %.1f mm in one frame", b0, b)
 		}
 		if onset >= 0 {

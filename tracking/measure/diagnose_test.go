@@ -79,6 +79,29 @@ func TestDiagnoseScenarios(t *testing.T) {
 			account: []string{"broke at 0.200 s"},
 		},
 		{
+			// A cord drags a brace's middle point aside for 8 frames, then
+			// moves on and the point is back in place: a jump of the bow
+			// that settles back is not a break (common practice: a broken
+			// member stays out of line).
+			name: "diagonal goes; another brace's middle pulled aside for a moment",
+			setup: func(s *scene) {
+				s.bow = func(id string, f int) float64 {
+					switch {
+					case id == "AB-d2" && f >= 150:
+						return 0.04 * float64(f-150)
+					case id == "BC-d1" && f >= 90 && f < 98:
+						return 1.5
+					}
+					return 0
+				}
+				s.lost = func(id string, f int) bool {
+					return (id == "AB-d2-mid" && f >= 200) || f >= 206
+				}
+			},
+			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
+			account: []string{"broke at 0.200 s"},
+		},
+		{
 			name: "leg buckles over its full height",
 			setup: func(s *scene) {
 				s.midLeg = true
