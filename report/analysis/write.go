@@ -435,7 +435,7 @@ func (w *writer) evidence(src capture.Source, have map[int]gocv.Mat, kept *evide
 		if kept == nil || intra || kept.Has(f) {
 			return f
 		}
-		if n, ok := kept.Nearest(f, evidence.DefaultKeep.Every/2); ok && n >= first && n <= last {
+		if n, ok := kept.Nearest(f, kept.Policy().Every/2); ok && n >= first && n <= last {
 			return n
 		}
 		return f

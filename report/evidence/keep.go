@@ -87,6 +87,9 @@ func NewKeeper(pol KeepPolicy, w, h int) *Keeper {
 // Size returns the size of the frames kept.
 func (k *Keeper) Size() image.Point { return k.size }
 
+// Policy returns the keeper's policy.
+func (k *Keeper) Policy() KeepPolicy { return k.pol }
+
 // Err returns the first problem met while keeping frames (a frame that could
 // not be encoded); the frames concerned are simply not held.
 func (k *Keeper) Err() error { return k.err }

@@ -515,21 +515,28 @@ func nextBelow(x []float64, f int, level float64) int {
 // sustainedAbove returns the first row from which SustainRows consecutive
 // tracked values are at or above level, or -1.
 func sustainedAbove(x []float64, level float64, from int) int {
+	return firstRun(x, max(from, 0), SustainRows, func(v float64) bool { return v >= level })
+}
+
+// firstRun returns the first row of the first run of rows tracked rows
+// from row from on whose values all satisfy in (NaN rows are skipped and do
+// not break a run), or -1.
+func firstRun(x []float64, from, rows int, in func(float64) bool) int {
 	run, first := 0, -1
-	for i := max(from, 0); i < len(x); i++ {
+	for i := from; i < len(x); i++ {
 		if math.IsNaN(x[i]) {
 			continue
 		}
-		if x[i] >= level {
-			if run == 0 {
-				first = i
-			}
-			run++
-			if run >= SustainRows {
-				return first
-			}
-		} else {
+		if !in(x[i]) {
 			run = 0
+			continue
+		}
+		if run == 0 {
+			first = i
+		}
+		run++
+		if run >= rows {
+			return first
 		}
 	}
 	return -1
@@ -538,24 +545,7 @@ func sustainedAbove(x []float64, level float64, from int) int {
 // sustainedBelow returns the first row of the first run of SettleRows
 // tracked rows after from with |x| under level, or -1.
 func sustainedBelow(x []float64, level float64, from int) int {
-	run, first := 0, -1
-	for i := from + 1; i < len(x); i++ {
-		if math.IsNaN(x[i]) {
-			continue
-		}
-		if math.Abs(x[i]) < level {
-			if run == 0 {
-				first = i
-			}
-			run++
-			if run >= SettleRows {
-				return first
-			}
-		} else {
-			run = 0
-		}
-	}
-	return -1
+	return firstRun(x, from+1, SettleRows, func(v float64) bool { return math.Abs(v) < level })
 }
 
 // SettleRows is how many tracked rows a jumped bow must stay near straight
