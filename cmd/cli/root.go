@@ -9,6 +9,8 @@ import (
 	"strings"
 
 	"github.com/spf13/cobra"
+
+	"github.com/failframe/failframe/capture"
 )
 
 // Version is failframe's version, printed by --version and written into
@@ -59,8 +61,10 @@ func spaceExitHelp(c *cobra.Command) {
 // commands lists the constructors of the sub-commands; each file adds its own.
 var commands []func(*IOStreams) *cobra.Command
 
-// Main runs failframe with os.Args and returns the exit status.
+// Main runs failframe with os.Args and returns the exit status. OpenCV's
+// image functions run on the calling thread (see capture.SetImageThreads).
 func Main(io *IOStreams) int {
+	capture.SetImageThreads(1)
 	return Run(io, os.Args[1:])
 }
 
