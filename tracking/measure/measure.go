@@ -4,8 +4,10 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 	"sort"
 	"strings"
+	"sync"
 
 	"github.com/failframe/failframe/tracking/marks"
 	"github.com/failframe/failframe/tracking/tracks"
@@ -516,6 +518,7 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 	cam := g.cam
 	azNote := "; mark points on two faces and film from a camera azimuth of roughly 15-35 degrees off a face so the points sit at different depths"
 	var out []Level
+	var fits []func()
 	for _, lv := range nums {
 		ps := byLevel[lv]
 		L := Level{Level: lv, TwistDeg: nanSlice(g.n), SwayMM: nanSlice(g.n), SettleMM: nanSlice(g.n)}
@@ -618,11 +621,35 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 			}
 		}
 		if cam != nil && len(ps) >= 2 {
-			g.perspectiveLevel(cam, &L, ps, c)
+			i, ps := len(out), ps
+			fits = append(fits, func() { g.perspectiveLevel(cam, &out[i], ps, c) })
 		}
 		out = append(out, L)
 	}
+	// The perspective fits, the costly part, only write their own level's
+	// series: they run side by side.
+	parallel(fits)
 	return out, notes
+}
+
+// parallel runs the jobs on up to GOMAXPROCS goroutines and waits for them.
+func parallel(jobs []func()) {
+	next := make(chan func())
+	var wg sync.WaitGroup
+	for w := 0; w < min(len(jobs), runtime.GOMAXPROCS(0)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for job := range next {
+				job()
+			}
+		}()
+	}
+	for _, job := range jobs {
+		next <- job
+	}
+	close(next)
+	wg.Wait()
 }
 
 // fitCamera fits a pinhole camera to the marked points with known plan
