@@ -70,8 +70,11 @@ const (
 	CollapseGuardRows = 3
 	// TwistFloorDeg is the smallest twist change taken as a twist onset, degrees.
 	TwistFloorDeg = 0.25
-	// TwistModeDeg is the twist before collapse that, with no member bowing
-	// first, labels the failure a tower twist, degrees.
+	// TwistModeDeg is the twist, degrees, that a level must reach before
+	// collapse for its change to be a twist onset (the tower twisting, not
+	// a braced tower turning a degree or so, smoothly and ever faster, as
+	// it nears failure), and that, with no member bowing first, labels the
+	// failure a tower twist.
 	TwistModeDeg = 2.0
 )
 
@@ -755,8 +758,10 @@ func res0(in Input) float64 {
 // trend: a straight line fitted to the baseline window is extended, and a
 // two-sided CUSUM runs on the twist's departure from it (so a steady twist
 // rate is the baseline and a change of rate is the event). The departure
-// must reach TwistFloorDeg for SustainRows frames; the change point is
-// reported.
+// must reach TwistFloorDeg for SustainRows frames, and the twist itself
+// TwistModeDeg the same way from there on: a small twist that grows
+// smoothly also curves away from any line fitted to the early frames, and
+// that is not the tower starting to twist. The change point is reported.
 func twistOnset(tw []float64, nb, end int) (int, string) {
 	var ts, ys []float64
 	for i := 0; i < min(nb, len(tw)); i++ {
@@ -790,6 +795,14 @@ func twistOnset(tw []float64, nb, end int) (int, string) {
 		if f < 0 {
 			continue
 		}
+		turned := make([]float64, end)
+		for i := range turned {
+			turned[i] = sign * tw[i]
+		}
+		g := sustainedAbove(turned, TwistModeDeg, f)
+		if g < 0 {
+			continue // it changed, but the tower did not twist
+		}
 		alarm, _ := c.ChangePoint(x, f)
 		if alarm < 0 {
 			continue
@@ -803,7 +816,7 @@ func twistOnset(tw []float64, nb, end int) (int, string) {
 		if sign < 0 {
 			dir = "clockwise"
 		}
-		det = fmt.Sprintf("%s from above; the twist left its early trend of %.4f deg per frame (Page's CUSUM, sigma %.3f deg, alarm at row %d) and was %.2f deg off it for %d frames from row %d", dir, slope, sigma, alarm, TwistFloorDeg, SustainRows, f)
+		det = fmt.Sprintf("%s from above; the twist left its early trend of %.4f deg per frame (Page's CUSUM, sigma %.3f deg, alarm at row %d) and was %.2f deg off it for %d frames from row %d; it had twisted %.1f deg by row %d", dir, slope, sigma, alarm, TwistFloorDeg, SustainRows, f, TwistModeDeg, g)
 	}
 	return best, det
 }

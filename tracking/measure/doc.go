@@ -87,8 +87,12 @@
 // middle. Twist onset is where the
 // top observable level's twist leaves the straight-line trend of the
 // baseline window (a two-sided CUSUM on the departure, which must reach
-// TwistFloorDeg). Collapse is where a jump of the motion energy (when
-// given) or of the top level's speed began, or where most points were lost.
+// TwistFloorDeg), provided the level then twists by TwistModeDeg that way
+// before the collapse: a braced tower turns a degree or so as it nears
+// failure, smoothly and ever faster, which curves away from that line too
+// but is not the tower starting to twist. Collapse is where a jump of the
+// motion energy (when given) or of the top level's speed began, or where
+// most points were lost.
 //
 // A level's twist and sway are those of the mean of its four corners: a
 // corner carried off by its own bending leg is left out of the rigid fit
