@@ -57,6 +57,12 @@ const (
 	// or a joint letting go) rather than buckling (common practice: a snap
 	// is spread over a few frames by motion blur and tracking).
 	JumpRows = 5
+	// JumpLeadRows is how many tracked rows must come before a bow jump
+	// for it to count: in the first frames the bow is measured against the
+	// reference frame itself, so a point that starts drifting at once (a
+	// cord or a hand already against its marker) would read as a jump from
+	// straight (common practice: a change needs a baseline before it).
+	JumpLeadRows = 10
 	// BreakStrainPct is the smallest one-frame change of a member's chord
 	// length, percent, taken as a break (with eight standard deviations of
 	// the baseline's frame-to-frame changes).
@@ -464,9 +470,10 @@ func bowJumped(x []float64, f int, floor float64) bool {
 }
 
 // bowJump finds the first run of the bow at or above the buckling floor
-// before row end that the bow reached by a jump (see bowJumped), and returns
-// the row where the jump began: the first row within JumpRows before the
-// run with a one-frame rise of at least 15 % of the floor.
+// before row end that the bow reached by a jump (see bowJumped) after at
+// least JumpLeadRows tracked rows, and returns the row where the jump
+// began: the first row within JumpRows before the run with a one-frame
+// rise of at least 15 % of the floor.
 func bowJump(m *Member, end int) (int, string) {
 	if m.LengthMM <= 0 {
 		return -1, ""
@@ -500,9 +507,24 @@ func bowJump(m *Member, end int) (int, string) {
 		if p < 0 {
 			p = start
 		}
+		if tracked(x[:p+1]) < JumpLeadRows {
+			from = f // too early to tell a jump from where tracking began
+			continue
+		}
 		return start, fmt.Sprintf("bow jumped from %.2f mm to %.2f mm within %d frames, past 0.5%% of its %.0f mm length without growing first", x[p], x[f], f-p, m.LengthMM)
 	}
 	return -1, ""
+}
+
+// tracked counts the tracked (not NaN) values of x.
+func tracked(x []float64) int {
+	n := 0
+	for _, v := range x {
+		if !math.IsNaN(v) {
+			n++
+		}
+	}
+	return n
 }
 
 // nextBelow returns the first tracked row after f with x under level, or -1.
@@ -623,8 +645,8 @@ func memberBreak(m *Member, in Input, nb, onset, n, end int) (int, string) {
 	}
 	for r := max(from, 1); r < n; r++ {
 		for k, c := range cols {
-			if c >= 0 && in.Tracks.Samples[r][c].Lost && !in.Tracks.Samples[r-1][c].Lost &&
-				!hiddenOnly(in.Tracks, c, r, math.Max(2, ReappearFrac*m.LengthMM/res0(in))) {
+			if tol := math.Max(2, ReappearFrac*m.LengthMM/res0(in)); c >= 0 && in.Tracks.Samples[r][c].Lost && !in.Tracks.Samples[r-1][c].Lost &&
+				!hiddenOnly(in.Tracks, c, r, tol) && !fadedInPlace(in.Tracks, c, r, tol) {
 				return r, fmt.Sprintf("lost track of point %s", m.Points[k])
 			}
 		}
@@ -688,6 +710,35 @@ func hiddenOnly(tr *tracks.Tracks, c, r int, tolPx float64) bool {
 		}
 	}
 	return false
+}
+
+// FadeRows and FadeQuality describe a point being covered up rather than
+// breaking off: over the FadeRows rows before it was lost it stayed where it
+// was while its match quality fell by FadeQuality or more (something sliding
+// over the marker), where a member snapping moves the point, or loses it
+// from a good match at once (common practice).
+const (
+	FadeRows    = 15
+	FadeQuality = 0.1
+)
+
+// fadedInPlace reports whether point column c, lost from row r, was being
+// covered up: tracked over the FadeRows rows before r, within tolPx of its
+// last position all along, with its quality fallen by FadeQuality.
+func fadedInPlace(tr *tracks.Tracks, c, r int, tolPx float64) bool {
+	if r < FadeRows {
+		return false
+	}
+	last := tr.Samples[r-1][c]
+	top := last.Quality
+	for q := r - FadeRows; q < r; q++ {
+		s := tr.Samples[q][c]
+		if s.Lost || math.Hypot(s.X-last.X, s.Y-last.Y) > tolPx {
+			return false
+		}
+		top = math.Max(top, s.Quality)
+	}
+	return top-last.Quality >= FadeQuality
 }
 
 // jumpLevel is the level a jump must pass, max(mean + 10 sigma, floor,

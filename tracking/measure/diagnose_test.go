@@ -102,6 +102,57 @@ func TestDiagnoseScenarios(t *testing.T) {
 			account: []string{"broke at 0.200 s"},
 		},
 		{
+			// A cord slides over a brace's middle marker and stays there:
+			// the point's match fades over 20 frames while it stays put,
+			// then it is lost for good. Covered, not broken (common
+			// practice: a member snapping moves its points, or loses them
+			// from a good match at once).
+			name: "diagonal goes; another brace's point covered for good",
+			setup: func(s *scene) {
+				s.bow = func(id string, f int) float64 {
+					if id == "AB-d2" && f >= 150 {
+						return 0.04 * float64(f-150)
+					}
+					return 0
+				}
+				s.lost = func(id string, f int) bool {
+					return (id == "BC-d1-mid" && f >= 120) || (id == "AB-d2-mid" && f >= 200) || f >= 206
+				}
+				s.quality = func(id string, f int) float64 {
+					if id == "BC-d1-mid" && f >= 100 {
+						return 0.95 - 0.3*float64(f-100)/20
+					}
+					return 0.95
+				}
+			},
+			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
+			account: []string{"broke at 0.200 s"},
+		},
+		{
+			// A cord already against a brace's middle marker in the
+			// reference frame drags the point 1.5 mm aside within the first
+			// frames and it stays there: with no tracked frames before it,
+			// that is not a jump of the bow (common practice: a change needs
+			// a baseline before it).
+			name: "diagonal goes; another brace's point drifts from the start",
+			setup: func(s *scene) {
+				s.bow = func(id string, f int) float64 {
+					switch {
+					case id == "AB-d2" && f >= 150:
+						return 0.04 * float64(f-150)
+					case id == "BC-d1":
+						return 1.5 * math.Min(1, float64(f)/3)
+					}
+					return 0
+				}
+				s.lost = func(id string, f int) bool {
+					return (id == "AB-d2-mid" && f >= 200) || f >= 206
+				}
+			},
+			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
+			account: []string{"broke at 0.200 s"},
+		},
+		{
 			name: "leg buckles over its full height",
 			setup: func(s *scene) {
 				s.midLeg = true

@@ -79,12 +79,16 @@
 // A break is a step of the chord length (three frames against the three
 // before, less the trend of the twelve before that, lasting at least six
 // frames), a jump of an end point, a lost track on one of the member's
-// points, or a collapse of the bow after onset. Two things that look like
+// points, or a collapse of the bow after onset. Four things that look like
 // a break are not one: a point lost for a while and then seen again where
-// it was (within ReappearFrac of the member's length) was hidden, and a bow
-// that jumps and then settles back near straight for SettleRows frames
-// before the collapse was something passing in front of the member's
-// middle. Twist onset is where the
+// it was (within ReappearFrac of the member's length) was hidden; a point
+// lost after fading in place (over the FadeRows frames before, it stayed
+// within that distance while its match quality fell by FadeQuality) was
+// covered up; a bow that jumps and then settles back near straight for
+// SettleRows frames before the collapse was something passing in front of
+// the member's middle; and a bow "jump" with fewer than JumpLeadRows
+// tracked frames before it is only the tracking settling from the
+// reference frame. Twist onset is where the
 // top observable level's twist leaves the straight-line trend of the
 // baseline window (a two-sided CUSUM on the departure, which must reach
 // TwistFloorDeg), provided the level then twists by TwistModeDeg that way

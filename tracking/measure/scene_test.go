@@ -35,7 +35,9 @@ type scene struct {
 	legBow func(leg string, frame int, h float64) float64 // sideways leg offset, mm, along the face normal (r direction)
 	noise  float64                                        // px
 	lost   func(id string, frame int) bool
-	seed   int64
+	// quality of a tracked point's match; nil: 1
+	quality func(id string, frame int) float64
+	seed    int64
 }
 
 type spt struct {
@@ -224,6 +226,9 @@ func (s *scene) build() (*marks.File, *tracks.Tracks) {
 			q := s.pos3(p, byID, f)
 			u, v := s.project(q[0], q[1], q[2])
 			row[j] = tracks.Sample{X: u + s.noise*rng.NormFloat64(), Y: v + s.noise*rng.NormFloat64(), Quality: 1}
+			if s.quality != nil {
+				row[j].Quality = s.quality(p.id, f)
+			}
 		}
 		t.Samples = append(t.Samples, row)
 	}
