@@ -28,6 +28,35 @@ func findEvent(d *Diagnosis, kind, member string) *Event {
 	return nil
 }
 
+// diagonalGoesWith sets up diagonal AB-d2 buckling from frame 150 (0.04 mm
+// of bow a frame) and breaking at frame 200, the collapse at 206, while
+// something disturbs brace BC-d1's middle point: extra bow of BC-d1 (mm),
+// the frames its point is lost and its match quality, each nil for none.
+func diagonalGoesWith(bow func(f int) float64, lost func(f int) bool, quality func(f int) float64) func(*scene) {
+	return func(s *scene) {
+		s.bow = func(id string, f int) float64 {
+			switch {
+			case id == "AB-d2" && f >= 150:
+				return 0.04 * float64(f-150) // mm per frame
+			case id == "BC-d1" && bow != nil:
+				return bow(f)
+			}
+			return 0
+		}
+		s.lost = func(id string, f int) bool {
+			return (id == "BC-d1-mid" && lost != nil && lost(f)) || (id == "AB-d2-mid" && f >= 200) || f >= 206
+		}
+		if quality != nil {
+			s.quality = func(id string, f int) float64 {
+				if id == "BC-d1-mid" {
+					return quality(f)
+				}
+				return 0.95
+			}
+		}
+	}
+}
+
 func TestDiagnoseScenarios(t *testing.T) {
 	const n = 300
 	tests := []struct {
@@ -41,18 +70,8 @@ func TestDiagnoseScenarios(t *testing.T) {
 		noBreak  string // a member that must not be reported broken
 	}{
 		{
-			name: "diagonal buckles then breaks",
-			setup: func(s *scene) {
-				s.bow = func(id string, f int) float64 {
-					if id == "AB-d2" && f >= 150 {
-						return 0.04 * float64(f-150) // mm per frame
-					}
-					return 0
-				}
-				s.lost = func(id string, f int) bool {
-					return (id == "AB-d2-mid" && f >= 200) || f >= 206
-				}
-			},
+			name:  "diagonal buckles then breaks",
+			setup: diagonalGoesWith(nil, nil, nil),
 			// Onset (shared with the synthesizer): the first frame where the
 			// bow reaches 0.5 % of the 107.0 mm length, 0.535 mm: 150 + 0.535/0.04 -> 164.
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling,
@@ -63,18 +82,8 @@ func TestDiagnoseScenarios(t *testing.T) {
 			// frames before the diagonal goes: the point is lost, then seen
 			// again where it was; hidden, not broken (common practice: a
 			// broken-off piece moves away).
-			name: "diagonal goes; another brace's point hidden for a while",
-			setup: func(s *scene) {
-				s.bow = func(id string, f int) float64 {
-					if id == "AB-d2" && f >= 150 {
-						return 0.04 * float64(f-150)
-					}
-					return 0
-				}
-				s.lost = func(id string, f int) bool {
-					return (id == "BC-d1-mid" && f >= 100 && f < 140) || (id == "AB-d2-mid" && f >= 200) || f >= 206
-				}
-			},
+			name:     "diagonal goes; another brace's point hidden for a while",
+			setup:    diagonalGoesWith(nil, func(f int) bool { return f >= 100 && f < 140 }, nil),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
 			account: []string{"broke at 0.200 s"},
 		},
@@ -84,20 +93,12 @@ func TestDiagnoseScenarios(t *testing.T) {
 			// that settles back is not a break (common practice: a broken
 			// member stays out of line).
 			name: "diagonal goes; another brace's middle pulled aside for a moment",
-			setup: func(s *scene) {
-				s.bow = func(id string, f int) float64 {
-					switch {
-					case id == "AB-d2" && f >= 150:
-						return 0.04 * float64(f-150)
-					case id == "BC-d1" && f >= 90 && f < 98:
-						return 1.5
-					}
-					return 0
+			setup: diagonalGoesWith(func(f int) float64 {
+				if f >= 90 && f < 98 {
+					return 1.5
 				}
-				s.lost = func(id string, f int) bool {
-					return (id == "AB-d2-mid" && f >= 200) || f >= 206
-				}
-			},
+				return 0
+			}, nil, nil),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
 			account: []string{"broke at 0.200 s"},
 		},
@@ -108,23 +109,12 @@ func TestDiagnoseScenarios(t *testing.T) {
 			// practice: a member snapping moves its points, or loses them
 			// from a good match at once).
 			name: "diagonal goes; another brace's point covered for good",
-			setup: func(s *scene) {
-				s.bow = func(id string, f int) float64 {
-					if id == "AB-d2" && f >= 150 {
-						return 0.04 * float64(f-150)
-					}
-					return 0
+			setup: diagonalGoesWith(nil, func(f int) bool { return f >= 120 }, func(f int) float64 {
+				if f >= 100 {
+					return 0.95 - 0.3*float64(f-100)/20
 				}
-				s.lost = func(id string, f int) bool {
-					return (id == "BC-d1-mid" && f >= 120) || (id == "AB-d2-mid" && f >= 200) || f >= 206
-				}
-				s.quality = func(id string, f int) float64 {
-					if id == "BC-d1-mid" && f >= 100 {
-						return 0.95 - 0.3*float64(f-100)/20
-					}
-					return 0.95
-				}
-			},
+				return 0.95
+			}),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
 			account: []string{"broke at 0.200 s"},
 		},
@@ -134,21 +124,8 @@ func TestDiagnoseScenarios(t *testing.T) {
 			// frames and it stays there: with no tracked frames before it,
 			// that is not a jump of the bow (common practice: a change needs
 			// a baseline before it).
-			name: "diagonal goes; another brace's point drifts from the start",
-			setup: func(s *scene) {
-				s.bow = func(id string, f int) float64 {
-					switch {
-					case id == "AB-d2" && f >= 150:
-						return 0.04 * float64(f-150)
-					case id == "BC-d1":
-						return 1.5 * math.Min(1, float64(f)/3)
-					}
-					return 0
-				}
-				s.lost = func(id string, f int) bool {
-					return (id == "AB-d2-mid" && f >= 200) || f >= 206
-				}
-			},
+			name:     "diagonal goes; another brace's point drifts from the start",
+			setup:    diagonalGoesWith(func(f int) float64 { return 1.5 * math.Min(1, float64(f)/3) }, nil, nil),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
 			account: []string{"broke at 0.200 s"},
 		},
