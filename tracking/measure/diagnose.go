@@ -76,6 +76,12 @@ const (
 	CollapseGuardRows = 3
 	// TwistFloorDeg is the smallest twist change taken as a twist onset, degrees.
 	TwistFloorDeg = 0.25
+	// TwistRiseDeg is the departure from the early trend, degrees, through
+	// which the twist's last rise to TwistFloorDeg is taken to start: the
+	// twist onset is placed no earlier (a fifth of the floor, five times
+	// the twist noise of a well-marked level; common practice, as the
+	// collapse's rise is taken from half its level).
+	TwistRiseDeg = 0.05
 	// TwistModeDeg is the twist, degrees, that a level must reach before
 	// collapse for its change to be a twist onset (the tower twisting, not
 	// a braced tower turning a degree or so, smoothly and ever faster, as
@@ -859,6 +865,14 @@ func twistOnset(tw []float64, nb, end int) (int, string) {
 			continue
 		}
 		_, start := CUSUM{Target: 0, K: CusumCPK * sigma}.ChangePoint(x, f)
+		// Not before the departure last rose through TwistRiseDeg: an
+		// early trend a little off, extended far, lets the change point
+		// drift back toward the baseline window.
+		rise := f
+		for rise > 0 && (math.IsNaN(x[rise-1]) || x[rise-1] > TwistRiseDeg) {
+			rise--
+		}
+		start = max(start, rise)
 		if best >= 0 && start >= best {
 			continue
 		}

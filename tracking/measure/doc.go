@@ -94,7 +94,10 @@
 // TwistFloorDeg), provided the level then twists by TwistModeDeg that way
 // before the collapse: a braced tower turns a degree or so as it nears
 // failure, smoothly and ever faster, which curves away from that line too
-// but is not the tower starting to twist. Collapse is where a jump of the
+// but is not the tower starting to twist. The onset is the CUSUM's change
+// point, but no earlier than the departure's last rise through
+// TwistRiseDeg (an early trend a little off, extended far, would otherwise
+// pull it back toward the baseline window). Collapse is where a jump of the
 // motion energy (when given) or of the top level's speed began, or where
 // most points were lost.
 //
