@@ -6,6 +6,7 @@ import (
 	"sort"
 	"strings"
 
+	"github.com/failframe/failframe/tracking/marks"
 	"github.com/failframe/failframe/tracking/tracks"
 )
 
@@ -159,6 +160,11 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 	var finds []*memberFind
 	for i := range res.Members {
 		m := &res.Members[i]
+		if m.Kind == marks.KindBlock {
+			// The loading block is measured (its chord and tilt), but it
+			// is not a member of the tower that can buckle or break.
+			continue
+		}
 		f := &memberFind{m: m, onset: -1, brk: -1}
 		if m.Kind == "leg" {
 			f.leg = legOf(m, in)
@@ -658,7 +664,11 @@ func memberBreak(m *Member, in Input, nb, onset, n, end int) (int, string) {
 		}
 		if st := step(r); !math.IsNaN(st) && math.Abs(st) > strainJump && r+5 < n &&
 			// and it lasts: the next six frames stay off by half as much
-			math.Abs((mean3(r)+mean3(r+3))/2-mean3(r-3)) > strainJump/2 && sameSign((mean3(r)+mean3(r+3))/2-mean3(r-3), st) {
+			math.Abs((mean3(r)+mean3(r+3))/2-mean3(r-3)) > strainJump/2 && sameSign((mean3(r)+mean3(r+3))/2-mean3(r-3), st) &&
+			// and the chord stepped in the image too, not only the levels'
+			// motions divided out of it (a level's fit shifts when one of
+			// its points is lost or taken up again)
+			imageStepped(m, r, st) {
 			// The jump is in the frame of the largest one-frame change nearby.
 			best, br := 0.0, r
 			for q := r; q <= r+2 && q < n; q++ {
@@ -697,6 +707,22 @@ func memberBreak(m *Member, in Input, nb, onset, n, end int) (int, string) {
 		}
 	}
 	return -1, ""
+}
+
+// imageStepped reports whether the member's chord, as seen in the image
+// (before the levels' motions are divided out), changed from the three rows
+// before r to the three from r by at least half of step, percent, the same
+// way; true when the image series was not kept.
+func imageStepped(m *Member, r int, step float64) bool {
+	x := m.rawStrain
+	if x == nil {
+		return true
+	}
+	if r < 3 || r+2 >= len(x) {
+		return false
+	}
+	d := (x[r]+x[r+1]+x[r+2])/3 - (x[r-3]+x[r-2]+x[r-1])/3
+	return !math.IsNaN(d) && sameSign(d, step) && math.Abs(d) >= math.Abs(step)/2
 }
 
 // ReappearFrac is how far, as a fraction of its member's length, a point

@@ -106,7 +106,8 @@ type Member struct {
 	// frame, degrees, counter-clockwise as seen in the image positive.
 	RotationDeg []float64
 
-	panelMM float64 // for a leg marked at mid-panel: its longest panel, mm (else 0)
+	panelMM   float64   // for a leg marked at mid-panel: its longest panel, mm (else 0)
+	rawStrain []float64 // the chord's image length change, percent, before the levels' motions are divided out (nil: not kept)
 }
 
 // Leg is one leg's deflected shape.

@@ -53,7 +53,7 @@ func (g *geom) members(levels []Level) []Member {
 	var out []Member
 	for _, mm := range g.in.Marks.Members {
 		M := Member{ID: mm.ID, Kind: mm.Kind, Points: append([]string(nil), mm.Points...), Levels: [2]int{-1, -1},
-			StrainPct: nanSlice(g.n), BowMM: nanSlice(g.n), BowFrac: nanSlice(g.n), RotationDeg: nanSlice(g.n)}
+			StrainPct: nanSlice(g.n), BowMM: nanSlice(g.n), BowFrac: nanSlice(g.n), RotationDeg: nanSlice(g.n), rawStrain: nanSlice(g.n)}
 		ps := make([]*point, len(mm.Points))
 		for i, id := range mm.Points {
 			ps[i] = g.pts[id]
@@ -109,6 +109,7 @@ func (g *geom) members(levels []Level) []Member {
 			l := math.Hypot(bx-ax, by-ay)
 			rawStrain := 100 * (l - refLen) / refLen
 			M.StrainPct[row] = rawStrain
+			M.rawStrain[row] = rawStrain
 			if ratio[row] > 0 && len3[row] > 0 {
 				M.StrainPct[row] = 100 * (len3[row]*(l/refLen)/ratio[row] - 1)
 			}
