@@ -64,6 +64,8 @@
 //
 // # Events
 //
+// Legs and braces are the members that buckle and break; a loading block
+// marked as a member is measured (chord, tilt) but never named.
 // A member's buckling is confirmed at the first frame from which its bow
 // stays at or above 0.5 % of its length for SustainRows frames, provided
 // Page's one-sided CUSUM on the bow (baseline mean and standard deviation
@@ -78,7 +80,8 @@
 // point, where the bow began to grow, is given in the event's detail.
 // A break is a step of the chord length (three frames against the three
 // before, less the trend of the twelve before that, lasting at least six
-// frames), a jump of an end point, a lost track on one of the member's
+// frames, and seen in the image's chord too, not only after the levels'
+// motions are divided out), a jump of an end point, a lost track on one of the member's
 // points, or a collapse of the bow after onset. Four things that look like
 // a break are not one: a point lost for a while and then seen again where
 // it was (within ReappearFrac of the member's length) was hidden; a point
