@@ -750,7 +750,7 @@ func hiddenOnly(tr *tracks.Tracks, c, r int, tolPx float64) bool {
 // over the marker), where a member snapping moves the point, or loses it
 // from a good match at once (common practice).
 const (
-	FadeRows    = 15
+	FadeRows    = 30
 	FadeQuality = 0.1
 )
 
