@@ -844,7 +844,8 @@ func res0(in Input) float64 {
 // must reach TwistFloorDeg for SustainRows frames, and the twist itself
 // TwistModeDeg the same way from there on: a small twist that grows
 // smoothly also curves away from any line fitted to the early frames, and
-// that is not the tower starting to twist. The change point is reported.
+// that is not the tower starting to twist. The change point is reported,
+// but no earlier than the departure's last rise through TwistRiseDeg.
 func twistOnset(tw []float64, nb, end int) (int, string) {
 	var ts, ys []float64
 	for i := 0; i < min(nb, len(tw)); i++ {
