@@ -75,6 +75,11 @@ const (
 	// with no bow before it is taken as part of the collapse (a collapse is
 	// found a frame or two after it starts).
 	CollapseGuardRows = 3
+	// CollapseLeadRows is how close to the collapse a member's onset may
+	// come and still be taken as the failure's start when another member
+	// broke before it: a bow beginning in the last rows before everything
+	// falls is the collapse spreading (common practice).
+	CollapseLeadRows = 10
 	// TwistFloorDeg is the smallest twist change taken as a twist onset, degrees.
 	TwistFloorDeg = 0.25
 	// TwistRiseDeg is the departure from the early trend, degrees, through
@@ -241,7 +246,9 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 		l.SummarizeAt(bestRow)
 	}
 
-	// First member: earliest onset; without any, the earliest break before the collapse.
+	// First member: earliest onset; without any, or when that onset comes
+	// in the last CollapseLeadRows before the collapse and a member broke
+	// without bowing before it, the earliest break before the collapse.
 	var first *memberFind
 	for _, f := range finds {
 		if f.onset < 0 {
@@ -251,15 +258,17 @@ func Diagnose(res *Result, in Input) *Diagnosis {
 			first = f
 		}
 	}
-	firstIsBreak := false
-	if first == nil {
-		for _, f := range finds {
-			// A break in the last CollapseGuardRows before the collapse is
-			// part of it.
-			if f.brk >= 0 && (colRow < 0 || f.brk < colRow-CollapseGuardRows) && (first == nil || f.brk < first.brk) {
-				first = f
-			}
+	var firstBreak *memberFind
+	for _, f := range finds {
+		// A break in the last CollapseGuardRows before the collapse is
+		// part of it.
+		if f.brk >= 0 && f.onset < 0 && (colRow < 0 || f.brk < colRow-CollapseGuardRows) && (firstBreak == nil || f.brk < firstBreak.brk) {
+			firstBreak = f
 		}
+	}
+	firstIsBreak := false
+	if first == nil || (firstBreak != nil && firstBreak.brk < first.onset && colRow >= 0 && first.onset >= colRow-CollapseLeadRows) {
+		first = firstBreak
 		firstIsBreak = first != nil
 		if first != nil {
 			if lf := baseFoot(first, res, in); lf != nil {

@@ -68,6 +68,9 @@ func TestDiagnoseScenarios(t *testing.T) {
 		mode     string
 		account  []string
 		noBreak  string // a member that must not be reported broken
+		// with onset -1: a member that may begin to bow after the first
+		// member went
+		laterOnset string
 	}{
 		{
 			name:  "diagonal buckles then breaks",
@@ -128,6 +131,27 @@ func TestDiagnoseScenarios(t *testing.T) {
 			setup:    diagonalGoesWith(func(f int) float64 { return 1.5 * math.Min(1, float64(f)/3) }, nil, nil),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling, noBreak: "BC-d1",
 			account: []string{"broke at 0.200 s"},
+		},
+		{
+			// A brace snaps without bowing (its marker was hidden while it
+			// bowed, say); another starts to bow only as the tower falls,
+			// 7 frames before the collapse: the snap came first (common
+			// practice: the member that went first in time).
+			name: "a brace snaps; another starts to bow only as the tower falls",
+			setup: func(s *scene) {
+				s.bow = func(id string, f int) float64 {
+					switch {
+					case id == "BC-d1" && f >= 180:
+						return 3
+					case id == "AB-d2" && f >= 190:
+						return 0.06 * float64(f-190) // 0.5 % of 107 mm by frame 199
+					}
+					return 0
+				}
+				s.lost = func(id string, f int) bool { return f >= 206 }
+			},
+			collapse: 206, first: "BC-d1", onset: -1, mode: ModeJointOrBase, laterOnset: "AB-d2",
+			account: []string{"broke without bowing first at 0.180 s"},
 		},
 		{
 			name: "leg buckles over its full height",
@@ -241,8 +265,12 @@ func TestDiagnoseScenarios(t *testing.T) {
 				if math.Abs(e.TimeS-float64(e.Frame)/1000) > 1e-12 {
 					t.Errorf("time %g for frame %d at 1000 fps", e.TimeS, e.Frame)
 				}
-			} else if e := findEvent(d, EventOnset, ""); e != nil {
-				t.Errorf("unexpected onset %+v", *e)
+			} else {
+				for _, e := range d.Events {
+					if e.Kind == EventOnset && e.Member != tc.laterOnset {
+						t.Errorf("unexpected onset %+v", e)
+					}
+				}
 			}
 			if tc.collapse >= 0 {
 				e := findEvent(d, EventCollapse, "")
