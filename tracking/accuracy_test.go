@@ -7,8 +7,6 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"gocv.io/x/gocv"
-
 	"github.com/failframe/failframe/tracking/marks"
 )
 
@@ -45,21 +43,14 @@ func runSceneCheck(t *testing.T, sc *scene, probes []probe, n int, opt Options, 
 		x, y := sc.bodies[p.body].at(0, p.x, p.y)
 		m.Points = append(m.Points, marks.Point{ID: p.id, PX: [2]float64{x, y}})
 	}
-	img := gocv.NewMat()
-	defer img.Close()
-	sc.render(0, &img)
-	tr, err := New(m, img, opt)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer tr.Close()
+	tr, img := sc.start(t, m, opt)
 	st := make([]trackStats, len(probes))
 	for i := range st {
 		st[i].firstLost, st[i].lastLost = -1, -1
 	}
 	for i := 0; i < n; i++ {
-		sc.render(i, &img)
-		out, err := tr.Step(i, img)
+		sc.render(i, img)
+		out, err := tr.Step(i, *img)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -230,14 +221,7 @@ func TestNoDriftStaticScene(t *testing.T) {
 	for _, p := range probes {
 		m.Points = append(m.Points, marks.Point{ID: p.id, PX: [2]float64{p.x, p.y}})
 	}
-	img := gocv.NewMat()
-	defer img.Close()
-	sc.render(0, &img)
-	tr, err := New(m, img, DefaultOptions())
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer tr.Close()
+	tr, img := sc.start(t, m, DefaultOptions())
 	// The scene is still: render the noise-free frame once and add fresh
 	// noise and flicker per frame.
 	clean := append([]float64(nil), sc.buf...)
@@ -250,7 +234,7 @@ func TestNoDriftStaticScene(t *testing.T) {
 		for k, v := range clean {
 			pix[k] = uint8(math.Max(0, math.Min(255, math.Round(v*gain+sc.noise*frng.NormFloat64()))))
 		}
-		out, err := tr.Step(i, img)
+		out, err := tr.Step(i, *img)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -5,8 +5,6 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"gocv.io/x/gocv"
-
 	"github.com/failframe/failframe/tracking/marks"
 )
 
@@ -50,22 +48,15 @@ func TestThinBarOverStillBackground(t *testing.T) {
 			}}
 			sc := &scene{w: 160, h: 120, bg: 90, bodies: []body{wall, bar}, noise: c.noise, seed: c.seed}
 			m := &marks.File{Points: []marks.Point{{ID: "AB-d1-mid", PX: [2]float64{80.3, 60.2}}}}
-			img := gocv.NewMat()
-			defer img.Close()
-			sc.render(0, &img)
-			tr, err := New(m, img, DefaultOptions())
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer tr.Close()
+			tr, img := sc.start(t, m, DefaultOptions())
 			// The displacement is read against the first frames' positions, so
 			// that a fixed offset (the reference frame's own noise) cancels,
 			// as it does in a bow measured from the start.
 			const start = 10
 			var sum, sum0, truth0 float64
 			for i := 1; i < creep+hold; i++ {
-				sc.render(i, &img)
-				out, err := tr.Step(i, img)
+				sc.render(i, img)
+				out, err := tr.Step(i, *img)
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -4,8 +4,11 @@ import (
 	"image"
 	"math"
 	"math/rand/v2"
+	"testing"
 
 	"gocv.io/x/gocv"
+
+	"github.com/failframe/failframe/tracking/marks"
 )
 
 // The test scenes here are rendered analytically (Gaussian spots and
@@ -60,6 +63,22 @@ type scene struct {
 	seed     uint64
 
 	buf []float64
+}
+
+// start renders frame 0 and returns a tracker for m made on it, and the
+// frame's Mat to render the next frames into; both are freed when the test
+// ends.
+func (s *scene) start(t *testing.T, m *marks.File, opt Options) (*Tracker, *gocv.Mat) {
+	t.Helper()
+	img := gocv.NewMat()
+	t.Cleanup(func() { img.Close() })
+	s.render(0, &img)
+	tr, err := New(m, img, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(tr.Close)
+	return tr, &img
 }
 
 // render draws frame i into dst (8-bit grey).
