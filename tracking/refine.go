@@ -79,6 +79,10 @@ type template struct {
 	// divided by the weighted patch variance: a texture figure in 1/px^2
 	// that does not depend on contrast.
 	minEig float64
+	// isotropy is the smaller eigenvalue of the weighted structure matrix
+	// over the larger: near 1 for a dot, near 0 for a patch that is one
+	// straight edge (along which a match can slide).
+	isotropy float64
 	// anchorX, anchorY is the integer grid centre in the reference frame.
 	anchorX, anchorY int
 	// block is the grey block the template was built from (side 2r+5) and
@@ -197,6 +201,10 @@ func (tp *template) weigh() {
 	tp.minEig = 0
 	if ss > 0 {
 		tp.minEig = lmin / ss
+	}
+	tp.isotropy = 0
+	if lmax := tr - lmin; lmax > 0 {
+		tp.isotropy = lmin / lmax
 	}
 }
 

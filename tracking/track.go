@@ -35,6 +35,9 @@ type Hooks struct {
 	// the next), returning an error stops tracking with it. When nil, a bad
 	// frame stops tracking with an error naming it.
 	OnFrameError func(err *capture.FrameError) error
+	// Warn, when set, is given each doubt about a marked point found in the
+	// reference frame (see Tracker.Warnings) before tracking starts.
+	Warn func(msg string)
 }
 
 // Track follows the points of m through src over rng: it reads the reference
@@ -75,6 +78,11 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		return nil, err
 	}
 	defer tr.Close()
+	if hooks.Warn != nil {
+		for _, w := range tr.Warnings() {
+			hooks.Warn(w)
+		}
+	}
 
 	// When the run starts at the reference frame, it is at hand already.
 	haveFirst := rng.From == m.ReferenceFrame

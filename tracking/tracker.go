@@ -89,6 +89,12 @@ type Options struct {
 	// eigenvalue of the patch's weighted structure matrix over its weighted
 	// variance, in 1/px^2 (a flat patch has 0); default 0.002.
 	MinTexture float64
+	// MinIsotropy is the least ratio of the smaller to the larger
+	// eigenvalue of a point's weighted structure matrix in the reference
+	// frame below which the tracker warns that the patch is one straight
+	// edge (a marker hidden behind a cord, or a spot on a plain stick);
+	// default 0.15.
+	MinIsotropy float64
 	// AverageFrames is how many still frames at the start are averaged into
 	// each point's reference patch, to take the reference frame's own noise
 	// out of it; a point counts as still while within 0.1 px of its mark.
@@ -124,6 +130,7 @@ func DefaultOptions() Options {
 		SearchRadius:     16,
 		MaxSearchRadius:  128,
 		MinTexture:       0.002,
+		MinIsotropy:      0.15,
 		LKEpsilon:        0.01,
 	}
 }
@@ -203,6 +210,7 @@ type Tracker struct {
 	lkErr    gocv.Mat
 	match    gocv.Mat
 	noMask   gocv.Mat
+	warnings []string
 }
 
 // New prepares a tracker for the points of m, whose px positions are in the
@@ -263,6 +271,13 @@ func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
 			t.Close()
 			return nil, &marks.Error{Line: p.Line, Err: fmt.Errorf("point %s at (%.2f, %.2f) px has too little texture to track (%.4f < %.4f): put a dot or cross marker there, or mark a more detailed spot", p.ID, p.PX[0], p.PX[1], tp.minEig, opt.MinTexture)}
 		}
+		if tp.isotropy < opt.MinIsotropy {
+			where := p.ID
+			if p.Line > 0 {
+				where = fmt.Sprintf("%s (marks line %d)", p.ID, p.Line)
+			}
+			t.warnings = append(t.warnings, fmt.Sprintf("point %s: in the reference frame its patch is mostly one straight edge (eigenvalue ratio %.2f < %.2f), so its track can slide along that edge; if a cord, a hand or another member covers its marker there, set reference_frame to a frame where the marker is clear, else put a dot or cross on it", where, tp.isotropy, opt.MinIsotropy))
+		}
 		side := 2*r + 1
 		region := t.prev.Region(image.Rect(ax-r, ay-r, ax-r+side, ay-r+side))
 		tmpl := region.Clone()
@@ -276,6 +291,10 @@ func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
 	t.rf.ensure(opt.Window / 2)
 	return t, nil
 }
+
+// Warnings returns what New found doubtful about the marked points in the
+// reference frame (points it tracks all the same).
+func (t *Tracker) Warnings() []string { return append([]string(nil), t.warnings...) }
 
 // IDs returns the point ids in marks order, the order of Step's samples.
 func (t *Tracker) IDs() []string {

@@ -159,7 +159,8 @@ func trackRun(opts *trackOptions) error {
 		total = last - rng.From + 1
 	}
 	update, finish := newProgress(opts.io, opts.quiet, total, "tracking")
-	tr, err := tracking.Track(src, m, tracking.DefaultOptions(), rng, tracking.Hooks{Progress: update})
+	tr, err := tracking.Track(src, m, tracking.DefaultOptions(), rng, tracking.Hooks{Progress: update,
+		Warn: func(msg string) { fmt.Fprintf(opts.io.ErrOut, "warning: %s\n", msg) }})
 	finish()
 	if err != nil {
 		return withMarksPath(err, opts.marks)

@@ -252,6 +252,7 @@ func Run(cfg Config, prog Progress) (*report.Result, error) {
 			return nil
 		},
 		Progress: prog.Frames,
+		Warn:     func(msg string) { warn("%s", msg) },
 	})
 	if err != nil {
 		return nil, inputIfClip(err)
