@@ -83,6 +83,9 @@ type template struct {
 	// over the larger: near 1 for a dot, near 0 for a patch that is one
 	// straight edge (along which a match can slide).
 	isotropy float64
+	// edgeDir is the direction, radians in the image (x right, y down),
+	// along which the patch's dominant edge runs.
+	edgeDir float64
 	// anchorX, anchorY is the integer grid centre in the reference frame.
 	anchorX, anchorY int
 	// block is the grey block the template was built from (side 2r+5) and
@@ -206,6 +209,7 @@ func (tp *template) weigh() {
 	if lmax := tr - lmin; lmax > 0 {
 		tp.isotropy = lmin / lmax
 	}
+	tp.edgeDir = 0.5*math.Atan2(2*sxy, sxx-syy) + math.Pi/2
 }
 
 // refiner holds scratch buffers for refinement so the per-frame loop does not

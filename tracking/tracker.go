@@ -95,6 +95,14 @@ type Options struct {
 	// edge (a marker hidden behind a cord, or a spot on a plain stick);
 	// default 0.15.
 	MinIsotropy float64
+	// UncoverFrames is how many frames after the reference a point may wait
+	// whose reference patch is one straight edge running across its members
+	// (its marker hidden behind a cord, say; a point in no member is only
+	// warned about): it is reported lost until its
+	// patch at the marked place shows a marker again, and tracked from
+	// there with that patch; one still hidden after these frames stays
+	// lost. 0 tracks such points from the reference patch. Default 150.
+	UncoverFrames int
 	// AverageFrames is how many still frames at the start are averaged into
 	// each point's reference patch, to take the reference frame's own noise
 	// out of it; a point counts as still while within 0.1 px of its mark.
@@ -131,6 +139,7 @@ func DefaultOptions() Options {
 		MaxSearchRadius:  128,
 		MinTexture:       0.002,
 		MinIsotropy:      0.15,
+		UncoverFrames:    150,
 		LKEpsilon:        0.01,
 	}
 }
@@ -185,6 +194,13 @@ type pointState struct {
 	// candX, candY is a strong match found while lost, awaiting confirmation.
 	candX, candY float64
 	candOK       bool
+	// waiting is set while the point's marker, covered in the reference
+	// frame, has not shown yet (see Options.UncoverFrames); seen counts the
+	// frames running in which its patch has looked like a marker, the same
+	// each time, and seenRaw is the first of them.
+	waiting bool
+	seen    int
+	seenRaw []float64
 }
 
 // Tracker follows the marked points frame by frame. It is not safe for
@@ -254,6 +270,7 @@ func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
 		t.Close()
 		return nil, err
 	}
+	dirs := memberDirs(m)
 	for _, p := range m.Points {
 		ax, ay := int(math.Round(p.PX[0])), int(math.Round(p.PX[1]))
 		// The patch plus the gradient border must fit; shrink it near edges.
@@ -271,12 +288,17 @@ func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
 			t.Close()
 			return nil, &marks.Error{Line: p.Line, Err: fmt.Errorf("point %s at (%.2f, %.2f) px has too little texture to track (%.4f < %.4f): put a dot or cross marker there, or mark a more detailed spot", p.ID, p.PX[0], p.PX[1], tp.minEig, opt.MinTexture)}
 		}
+		waiting := false
 		if tp.isotropy < opt.MinIsotropy {
 			where := p.ID
 			if p.Line > 0 {
 				where = fmt.Sprintf("%s (marks line %d)", p.ID, p.Line)
 			}
-			t.warnings = append(t.warnings, fmt.Sprintf("point %s: in the reference frame its patch is mostly one straight edge (eigenvalue ratio %.2f < %.2f), so its track can slide along that edge; if a cord, a hand or another member covers its marker there, set reference_frame to a frame where the marker is clear, else put a dot or cross on it", where, tp.isotropy, opt.MinIsotropy))
+			what := "its track can slide along that edge"
+			if waiting = opt.UncoverFrames > 0 && !opt.PlainLK && len(dirs[p.ID]) > 0 && !alongMember(tp.edgeDir, dirs[p.ID]); waiting {
+				what = fmt.Sprintf("the edge runs across its members, so it is held as lost until its marker shows at the marked place (within %d frames)", opt.UncoverFrames)
+			}
+			t.warnings = append(t.warnings, fmt.Sprintf("point %s: in the reference frame its patch is mostly one straight edge (eigenvalue ratio %.2f < %.2f); %s; if a cord, a hand or another member covers its marker there, set reference_frame to a frame where the marker is clear, else put a dot or cross on it", where, tp.isotropy, opt.MinIsotropy, what))
 		}
 		side := 2*r + 1
 		region := t.prev.Region(image.Rect(ax-r, ay-r, ax-r+side, ay-r+side))
@@ -286,10 +308,120 @@ func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
 			id: p.ID, line: p.Line, tp: tp, tmpl: tmpl,
 			d0x: p.PX[0] - float64(ax), d0y: p.PX[1] - float64(ay),
 			cx: float64(ax), cy: float64(ay),
+			waiting: waiting, lost: waiting,
 		})
 	}
 	t.rf.ensure(opt.Window / 2)
 	return t, nil
+}
+
+// memberDirs returns, per point id, the image directions (radians) of the
+// members the point belongs to, from their end points' marked positions.
+func memberDirs(m *marks.File) map[string][]float64 {
+	px := map[string][2]float64{}
+	for _, p := range m.Points {
+		px[p.ID] = p.PX
+	}
+	out := map[string][]float64{}
+	for _, mm := range m.Members {
+		if len(mm.Points) < 2 {
+			continue
+		}
+		a, b := px[mm.Points[0]], px[mm.Points[len(mm.Points)-1]]
+		d := math.Atan2(b[1]-a[1], b[0]-a[0])
+		for _, id := range mm.Points {
+			out[id] = append(out[id], d)
+		}
+	}
+	return out
+}
+
+// alongMember reports whether an edge in direction dir runs along one of
+// the directions dirs, within 20 degrees either way.
+func alongMember(dir float64, dirs []float64) bool {
+	for _, d := range dirs {
+		diff := math.Mod(math.Abs(dir-d), math.Pi)
+		if math.Min(diff, math.Pi-diff) <= 20*math.Pi/180 {
+			return true
+		}
+	}
+	return false
+}
+
+// uncover looks for the marker of a waiting point at its marked place in
+// cur: once the patch there is a marker again (twice the isotropy the
+// warning asks for), it becomes the point's template and the point is
+// tracked from there. The point stays lost until then, and for good after
+// UncoverFrames frames.
+func (t *Tracker) uncover(p *pointState) tracks.Sample {
+	if t.gen > uint64(t.opt.UncoverFrames) {
+		return p.sample(0)
+	}
+	cur, err := view(t.frame)
+	if err != nil {
+		return p.sample(0)
+	}
+	ax, ay, r := p.tp.anchorX, p.tp.anchorY, p.tp.r
+	tp := newTemplate(cur, ax, ay, r, t.opt.Sigma)
+	if tp.isotropy < 2*t.opt.MinIsotropy || tp.minEig < t.opt.MinTexture ||
+		(p.seen > 0 && zncc(p.seenRaw, tp.raw) < uncoverSame) {
+		p.seen, p.seenRaw = 0, nil
+		return p.sample(0)
+	}
+	// The patch must hold still for uncoverRuns frames: a cord still
+	// sliding off the marker changes it from frame to frame.
+	if p.seen++; p.seen == 1 {
+		p.seenRaw = append([]float64(nil), tp.raw...)
+	}
+	if p.seen < uncoverRuns {
+		return p.sample(0)
+	}
+	p.seenRaw = nil
+	t.ensureGray()
+	side := 2*r + 1
+	region := t.gray.Region(image.Rect(ax-r, ay-r, ax-r+side, ay-r+side))
+	p.tmpl.Close()
+	p.tmpl = region.Clone()
+	region.Close()
+	p.tp, p.waiting, p.avgDone = tp, false, true
+	p.cx, p.cy, p.typ = float64(ax), float64(ay), 0
+	p.accept(p.cx, p.cy, 1)
+	return p.sample(1)
+}
+
+// A waiting point's marker counts as uncovered when its patch looks like a
+// marker on uncoverRuns frames running, each correlating with the first by
+// at least uncoverSame (common practice: a still scene repeats to within its
+// noise).
+const (
+	uncoverRuns = 3
+	uncoverSame = 0.95
+)
+
+// zncc is the zero-mean normalised cross-correlation of two patches of the
+// same size, -1 to 1 (0 for a flat patch).
+func zncc(a, b []float64) float64 {
+	if len(a) != len(b) || len(a) == 0 {
+		return 0
+	}
+	var ma, mb float64
+	for i := range a {
+		ma += a[i]
+		mb += b[i]
+	}
+	ma /= float64(len(a))
+	mb /= float64(len(b))
+	var sab, saa, sbb float64
+	for i := range a {
+		da, db := a[i]-ma, b[i]-mb
+		sab += da * db
+		saa += da * da
+		sbb += db * db
+	}
+	if saa == 0 || sbb == 0 {
+		return 0
+	}
+	return sab / math.Sqrt(saa*sbb)
 }
 
 // Warnings returns what New found doubtful about the marked points in the
@@ -386,6 +518,10 @@ func (t *Tracker) Step(frame int, img gocv.Mat) ([]tracks.Sample, error) {
 		fast := false
 		for i := range t.pts {
 			p := &t.pts[i]
+			if p.waiting {
+				out[i] = t.uncover(p)
+				continue
+			}
 			out[i] = t.stepPoint(p, cur)
 			if !p.lost && math.Hypot(p.vx, p.vy) > 0.5 {
 				fast = true
