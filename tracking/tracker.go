@@ -95,13 +95,13 @@ type Options struct {
 	// edge (a marker hidden behind a cord, or a spot on a plain stick);
 	// default 0.15.
 	MinIsotropy float64
-	// UncoverFrames is how many frames after the reference a point may wait
-	// whose reference patch is one straight edge running across its members
-	// (its marker hidden behind a cord, say; a point in no member is only
-	// warned about): it is reported lost until its
-	// patch at the marked place shows a marker again, and tracked from
-	// there with that patch; one still hidden after these frames stays
-	// lost. 0 tracks such points from the reference patch. Default 150.
+	// UncoverFrames is for how many of the first frames tracked a point may
+	// wait whose reference patch is one straight edge running across its
+	// members (its marker hidden behind a cord, say; a point in no member is
+	// only warned about): it is reported lost until its patch at the marked
+	// place shows a marker again, and tracked from there with that patch;
+	// one still hidden after these frames stays lost. 0 tracks such points
+	// from the reference patch. Default 150.
 	UncoverFrames int
 	// AverageFrames is how many still frames at the start are averaged into
 	// each point's reference patch, to take the reference frame's own noise
@@ -349,16 +349,12 @@ func alongMember(dir float64, dirs []float64) bool {
 }
 
 // uncover looks for the marker of a waiting point at its marked place in
-// cur: once the patch there is a marker again (twice the isotropy the
+// cur (the frame being stepped): once the patch there is a marker again (twice the isotropy the
 // warning asks for), it becomes the point's template and the point is
 // tracked from there. The point stays lost until then, and for good after
 // UncoverFrames frames.
-func (t *Tracker) uncover(p *pointState) tracks.Sample {
+func (t *Tracker) uncover(p *pointState, cur grayImage) tracks.Sample {
 	if t.gen > uint64(t.opt.UncoverFrames) {
-		return p.sample(0)
-	}
-	cur, err := view(t.frame)
-	if err != nil {
 		return p.sample(0)
 	}
 	ax, ay, r := p.tp.anchorX, p.tp.anchorY, p.tp.r
@@ -425,7 +421,8 @@ func zncc(a, b []float64) float64 {
 }
 
 // Warnings returns what New found doubtful about the marked points in the
-// reference frame (points it tracks all the same).
+// reference frame (it tracks them all the same, a covered marker once it
+// shows).
 func (t *Tracker) Warnings() []string { return append([]string(nil), t.warnings...) }
 
 // IDs returns the point ids in marks order, the order of Step's samples.
@@ -519,7 +516,7 @@ func (t *Tracker) Step(frame int, img gocv.Mat) ([]tracks.Sample, error) {
 		for i := range t.pts {
 			p := &t.pts[i]
 			if p.waiting {
-				out[i] = t.uncover(p)
+				out[i] = t.uncover(p, cur)
 				continue
 			}
 			out[i] = t.stepPoint(p, cur)
