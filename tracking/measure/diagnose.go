@@ -64,6 +64,11 @@ const (
 	// cord or a hand already against its marker) would read as a jump from
 	// straight (common practice: a change needs a baseline before it).
 	JumpLeadRows = 10
+	// JumpGapRows is the longest gap in a bow's record (its middle point
+	// hidden) across which a rise still counts as a jump: after a longer
+	// one the bow was simply not seen growing (common practice: a snap
+	// blurs a marker for a few frames, a cord or a hand hides it longer).
+	JumpGapRows = 30
 	// BreakStrainPct is the smallest one-frame change of a member's chord
 	// length, percent, taken as a break (with eight standard deviations of
 	// the baseline's frame-to-frame changes).
@@ -415,7 +420,11 @@ func bowOnset(m *Member, nb, end int) (onset, change int, detail string) {
 		}
 		_, start := CUSUM{Target: mu, K: CusumCPK * sigma}.ChangePoint(x, f)
 		on := onsetCrossing(x, f, floor, start)
-		return on, start, fmt.Sprintf("bow reached %.2f mm, 0.5%% of its %.0f mm length (where a straight line fitted to the bow over %d frames either side crosses it; the bow stayed above it for %d frames from row %d); it had been growing since frame row %d (Page's CUSUM on the bow: baseline %.3f mm, k = %.3f mm, h = %.3f mm, alarm at row %d)", floor, m.LengthMM, OnsetFitRows, SustainRows, f, start, mu, c.K, c.H, alarm)
+		det := fmt.Sprintf("bow reached %.2f mm, 0.5%% of its %.0f mm length (where a straight line fitted to the bow over %d frames either side crosses it; the bow stayed above it for %d frames from row %d); it had been growing since frame row %d (Page's CUSUM on the bow: baseline %.3f mm, k = %.3f mm, h = %.3f mm, alarm at row %d)", floor, m.LengthMM, OnsetFitRows, SustainRows, f, start, mu, c.K, c.H, alarm)
+		if a, b := unseenBefore(x, f); b-a > JumpGapRows && f-b <= 2*SustainRows {
+			det += fmt.Sprintf("; its bow was not seen from row %d to row %d (its middle point hidden), so it may have begun then", a, b-1)
+		}
+		return on, start, det
 	}
 }
 
@@ -480,6 +489,9 @@ func bowJumped(x []float64, f int, floor float64) bool {
 		if p = prevValid(x, p); p < 0 {
 			return false
 		}
+		if k == 0 && f-p > JumpGapRows {
+			return false // not seen rising: it may have grown while hidden
+		}
 		if k == 0 && x[p] < 0.5*x[f] {
 			return true
 		}
@@ -488,6 +500,20 @@ func bowJumped(x []float64, f int, floor float64) bool {
 		}
 	}
 	return false
+}
+
+// unseenBefore returns the last gap of NaN rows [a, b) before the run of
+// tracked rows that holds row f; a == b when there is none.
+func unseenBefore(x []float64, f int) (a, b int) {
+	b = f
+	for b > 0 && !math.IsNaN(x[b-1]) {
+		b--
+	}
+	a = b
+	for a > 0 && math.IsNaN(x[a-1]) {
+		a--
+	}
+	return a, b
 }
 
 // bowJump finds the first run of the bow at or above the buckling floor
@@ -666,6 +692,9 @@ func memberBreak(m *Member, in Input, nb, onset, n, end int) (int, string) {
 	}
 	for r := max(from, 1); r < n; r++ {
 		for k, c := range cols {
+			if m.slidFrom != nil && m.slidFrom[k] >= 0 && r >= m.slidFrom[k] {
+				continue // its track had left the member (see SlideRatio)
+			}
 			if tol := math.Max(2, ReappearFrac*m.LengthMM/res0(in)); c >= 0 && in.Tracks.Samples[r][c].Lost && !in.Tracks.Samples[r-1][c].Lost &&
 				!hiddenOnly(in.Tracks, c, r, tol) && !fadedInPlace(in.Tracks, c, r, tol) {
 				return r, fmt.Sprintf("lost track of point %s", m.Points[k])
@@ -1150,6 +1179,9 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 	switch {
 	case first != nil && !firstIsBreak:
 		s := fmt.Sprintf("%s began to bow at %s", describe(first.m, res), fmtTime(first.onset, res, fps))
+		if strings.Contains(first.onsetDet, "was not seen from row") {
+			s += " (when it was first seen again: its middle point had been hidden, so it may have begun earlier)"
+		}
 		last = first.onset
 		if first.brk >= 0 {
 			s += fmt.Sprintf(", broke at %s", fmtTime(first.brk, res, fps))

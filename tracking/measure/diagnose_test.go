@@ -225,6 +225,26 @@ func TestDiagnoseScenarios(t *testing.T) {
 			account: []string{"broke without bowing first at 0.175 s"},
 		},
 		{
+			// The diagonal's middle marker is hidden (a cord, a hand) from
+			// before the bow shows until it is well past the floor: the bow
+			// was not seen growing, which is not the same as a jump (a
+			// break without bowing). The onset is where it is first seen
+			// again, with a word that it may have begun earlier; the mode
+			// stays brace buckling (common practice: an unseen stretch is
+			// no evidence; the bow reached 0.04 mm a frame x 35 frames =
+			// 1.4 mm, 2.6 times the floor, by frame 185).
+			name: "diagonal's middle hidden while it begins to bow",
+			setup: func(s *scene) {
+				diagonalGoesWith(nil, nil, nil)(s)
+				lost := s.lost
+				s.lost = func(id string, f int) bool {
+					return lost(id, f) || (id == "AB-d2-mid" && f >= 140 && f < 185)
+				}
+			},
+			collapse: 206, first: "AB-d2", onset: 185, mode: ModeBraceBuckling,
+			account: []string{"began to bow at 0.18", "may have begun earlier"},
+		},
+		{
 			name:     "nothing happens",
 			setup:    func(s *scene) {},
 			collapse: -1, first: "", onset: -1, mode: ModeUndetermined,

@@ -46,7 +46,10 @@
 // (a pinhole fitted by the direct linear transform to the points with known
 // plan positions and heights) the image offset across the chord gives the
 // smallest bow that explains it; the offset along the chord, where trackers
-// slip on thin members, may raise that by at most BowObliqueMax. A member's
+// slip on thin members, may raise that by at most BowObliqueMax. A brace's
+// middle point whose track runs along the brace far beyond that while the
+// brace's ends hold still has left the brace (a cord passing in front took
+// it along) and is not used from where it began to go (SlideRatio). A member's
 // strain is its chord length change; where both ends are at levels, the
 // image length change that the levels' rigid motions explain is replaced by
 // the 3D length change they imply. A leg's deflection is each marked
@@ -89,9 +92,12 @@
 // within that distance while its match quality fell by FadeQuality) was
 // covered up; a bow that jumps and then settles back near straight for
 // SettleRows frames before the collapse was something passing in front of
-// the member's middle; and a bow "jump" with fewer than JumpLeadRows
+// the member's middle; a bow "jump" with fewer than JumpLeadRows
 // tracked frames before it is only the tracking settling from the
-// reference frame. Twist onset is where the
+// reference frame; and a bow first seen past the floor after its middle
+// point was hidden for more than JumpGapRows frames was not seen growing,
+// so it is an onset (with a word that it may have begun earlier), not a
+// jump. Twist onset is where the
 // top observable level's twist leaves the straight-line trend of the
 // baseline window (a two-sided CUSUM on the departure, which must reach
 // TwistFloorDeg), provided the level then twists by TwistModeDeg that way

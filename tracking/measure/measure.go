@@ -46,6 +46,10 @@ type Result struct {
 	Members []Member
 	// Notes are things the reader should know (scale source, geometry disagreements).
 	Notes []string
+	// Slid lists the brace mid-points whose track left their brace (see
+	// SlideRatio), by point id: the first row from which the point is not
+	// used.
+	Slid map[string]int
 
 	// Frames are the frame numbers of the rows (a copy of Tracks.Frames).
 	Frames []int
@@ -108,6 +112,7 @@ type Member struct {
 
 	panelMM   float64   // for a leg marked at mid-panel: its longest panel, mm (else 0)
 	rawStrain []float64 // the chord's image length change, percent, before the levels' motions are divided out (nil: not kept)
+	slidFrom  []int     // per point: the row from which its track is not used because it left the member (see SlideRatio); -1 = none; nil = none at all
 }
 
 // Leg is one leg's deflected shape.
@@ -164,19 +169,21 @@ type point struct {
 	hasH     bool
 	leg      string
 	markLine int
+	slidFrom int // row from which the track is not used (it left its member); -1 = never
 }
 
 // rows gives undistorted positions of a point per row.
 type geom struct {
-	in        Input
-	s         float64
-	pts       map[string]*point
-	order     []string
-	n         int
-	undist    func(x, y float64) (float64, float64)
-	cam       *Pinhole             // nil when no camera could be fitted
-	excess    map[string][]float64 // per joint id, per row: deflection beyond what the levels' motion explains, mm (trailing median)
-	excessRaw map[string][]float64 // the same, row by row
+	in         Input
+	s          float64
+	pts        map[string]*point
+	order      []string
+	n          int
+	undist     func(x, y float64) (float64, float64)
+	cam        *Pinhole             // nil when no camera could be fitted
+	excess     map[string][]float64 // per joint id, per row: deflection beyond what the levels' motion explains, mm (trailing median)
+	excessRaw  map[string][]float64 // the same, row by row
+	slideNotes []string             // one per point found to have left its member
 }
 
 // jointExcess returns, for each leg joint between its leg's end levels,
@@ -319,7 +326,7 @@ func cornerShare(rho, r [2]float64, delta float64) (dTwist, dSway float64) {
 }
 
 func (g *geom) at(p *point, row int) (x, y float64, ok bool) {
-	if p.col < 0 {
+	if p.col < 0 || (p.slidFrom >= 0 && row >= p.slidFrom) {
 		return math.NaN(), math.NaN(), false
 	}
 	smp := g.in.Tracks.Samples[row][p.col]
@@ -366,7 +373,7 @@ func Measure(in Input) (*Result, error) {
 	res := &Result{Frames: append([]int(nil), t.Frames...)}
 	m := in.Marks
 	for _, mp := range m.Points {
-		p := &point{id: mp.ID, col: t.Index(mp.ID), level: -1, leg: mp.Leg, markLine: mp.Line}
+		p := &point{id: mp.ID, col: t.Index(mp.ID), level: -1, leg: mp.Leg, markLine: mp.Line, slidFrom: -1}
 		p.ref[0], p.ref[1] = g.undist(mp.PX[0], mp.PX[1])
 		p.plan, p.hasPlan = m.PlanOf(mp)
 		if mp.Level != nil {
@@ -420,6 +427,15 @@ func Measure(in Input) (*Result, error) {
 		}
 	}
 	res.Members = g.members(res.Levels)
+	for _, id := range g.order {
+		if p := g.pts[id]; p.slidFrom >= 0 {
+			if res.Slid == nil {
+				res.Slid = map[string]int{}
+			}
+			res.Slid[id] = p.slidFrom
+		}
+	}
+	res.Notes = append(res.Notes, g.slideNotes...)
 	panelAwareLegBows(res)
 	return res, nil
 }

@@ -37,7 +37,10 @@ type scene struct {
 	lost   func(id string, frame int) bool
 	// quality of a tracked point's match; nil: 1
 	quality func(id string, frame int) float64
-	seed    int64
+	// drift, when set, moves a point's tracked position in the image by
+	// this many pixels (a track following something else); nil: none
+	drift func(id string, frame int) [2]float64
+	seed  int64
 }
 
 type spt struct {
@@ -225,6 +228,10 @@ func (s *scene) build() (*marks.File, *tracks.Tracks) {
 			}
 			q := s.pos3(p, byID, f)
 			u, v := s.project(q[0], q[1], q[2])
+			if s.drift != nil {
+				d := s.drift(p.id, f)
+				u, v = u+d[0], v+d[1]
+			}
 			row[j] = tracks.Sample{X: u + s.noise*rng.NormFloat64(), Y: v + s.noise*rng.NormFloat64(), Quality: 1}
 			if s.quality != nil {
 				row[j].Quality = s.quality(p.id, f)
