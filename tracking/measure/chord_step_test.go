@@ -27,16 +27,25 @@ func TestChordStepNeedsTheImage(t *testing.T) {
 	for _, tc := range []struct {
 		name  string
 		raw   []float64
+		refPx float64 // the chord's image length; 0 = unknown
 		brk   bool
 		where int
 	}{
-		{"image chord stepped too", stepSeries(n, 200, -1.5), true, 200},
-		{"only the level correction stepped", stepSeries(n, 200, 0), false, -1},
-		{"image stepped the other way", stepSeries(n, 200, 1.5), false, -1},
+		{"image chord stepped too", stepSeries(n, 200, -1.5), 0, true, 200},
+		{"only the level correction stepped", stepSeries(n, 200, 0), 0, false, -1},
+		{"image stepped the other way", stepSeries(n, 200, 1.5), 0, false, -1},
+		// 1.5 % of 200 px is 3 px: a joint letting go.
+		{"long in the image", stepSeries(n, 200, -1.5), 200, true, 200},
+		// 1.5 % of 10 px is 0.15 px: a brace seen end-on, whose joint's
+		// track moved by what compression can move it (ChordStepMinPx).
+		{"end-on in the image", stepSeries(n, 200, -1.5), 10, false, -1},
+		// 1.5 % of 20 px is 0.3 px: as much as a brace snapping moved the
+		// synthesizer's chord.
+		{"short in the image", stepSeries(n, 200, -1.5), 20, true, 200},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			m := &Member{ID: "BC-h2", Kind: "brace", Levels: [2]int{2, 2}, LengthMM: 80,
-				StrainPct: stepSeries(n, 200, -1.5), BowMM: make([]float64, n), rawStrain: tc.raw}
+				StrainPct: stepSeries(n, 200, -1.5), BowMM: make([]float64, n), rawStrain: tc.raw, refPx: tc.refPx}
 			r, det := memberBreak(m, Input{}, baselineRows(n), -1, n, n)
 			switch {
 			case tc.brk && (r < tc.where-1 || r > tc.where+2):

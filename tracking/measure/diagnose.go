@@ -750,7 +750,8 @@ func memberBreak(m *Member, in Input, nb, onset, n, end int) (int, string) {
 // imageStepped reports whether the member's chord, as seen in the image
 // (before the levels' motions are divided out), changed from the three rows
 // before r to the three from r by at least half of step, percent, the same
-// way; true when the image series was not kept.
+// way, and by at least ChordStepMinPx; true when the image series was not
+// kept.
 func imageStepped(m *Member, r int, step float64) bool {
 	x := m.rawStrain
 	if x == nil {
@@ -760,8 +761,19 @@ func imageStepped(m *Member, r int, step float64) bool {
 		return false
 	}
 	d := (x[r]+x[r+1]+x[r+2])/3 - (x[r-3]+x[r-2]+x[r-1])/3
-	return !math.IsNaN(d) && sameSign(d, step) && math.Abs(d) >= math.Abs(step)/2
+	return !math.IsNaN(d) && sameSign(d, step) && math.Abs(d) >= math.Abs(step)/2 &&
+		(m.refPx == 0 || math.Abs(d)/100*m.refPx >= ChordStepMinPx)
 }
+
+// ChordStepMinPx is the smallest step of a chord's length in the image, in
+// pixels, that can be a break: a member seen end-on is short in the image,
+// and there a tenth of a pixel, which a compressed clip's block update moves
+// a track by, is a large fraction of its length. Common practice, set
+// between what was seen: a clip re-encoded at CRF 36 moved a joint's track
+// by 0.14 px in one frame (a false break of a 30 px brace), while the
+// synthesizer's X-brace snapping stepped its 100 px chord by 0.27-0.40 px
+// over three frames.
+const ChordStepMinPx = 0.2
 
 // ReappearFrac is how far, as a fraction of its member's length, a point
 // lost for a while may turn up from where it was last seen and still count
@@ -938,6 +950,13 @@ func twistOnset(tw []float64, nb, end int) (int, string) {
 			rise--
 		}
 		start = max(start, rise)
+		// Where the trend bent: a local two-phase fit around the rise,
+		// which a slow start of the runaway does not delay.
+		lo := max(0, start-2*TwistHingeRows)
+		bend := hingeRow(x, lo, f, start)
+		if bend >= 0 {
+			start = bend
+		}
 		if best >= 0 && start >= best {
 			continue
 		}
@@ -947,9 +966,119 @@ func twistOnset(tw []float64, nb, end int) (int, string) {
 			dir = "clockwise"
 		}
 		det = fmt.Sprintf("%s from above; the twist left its early trend of %.4f deg per frame (Page's CUSUM, sigma %.3f deg, alarm at row %d) and was %.2f deg off it for %d frames from row %d; it had twisted %.1f deg by row %d", dir, slope, sigma, alarm, TwistFloorDeg, SustainRows, f, TwistModeDeg, g)
+		if bend >= 0 {
+			det += fmt.Sprintf("; its trend bent at row %d (a straight line turning into a parabola there fits rows %d to %d best: two-phase regression)", bend, lo, f)
+		}
 	}
 	return best, det
 }
+
+// TwistHingeRows sets the reach of the two-phase fit that places a twist
+// onset (hingeRow): it looks for the bend up to 2*TwistHingeRows rows
+// before the departure's rise (common practice: a few times the rows a
+// runaway takes to grow from the noise to TwistFloorDeg).
+const TwistHingeRows = 60
+
+// hingeRow finds where the series x bends within rows lo..hi: for each
+// candidate row t0 from lo+10 to last it fits, by least squares over the
+// rows lo..hi that are not NaN, a straight line that at t0 changes slope
+// and starts to curve, x = a + b (t-t0) + c h + d h^2 with h = max(0, t-t0)
+// (a continuous two-phase regression: D. V. Hinkley, "Inference in
+// two-phase regression", JASA 66:736-743, 1971, from memory; here the
+// second phase is a parabola, as a runaway starts slowly), and returns the
+// t0 with the smallest residual sum of squares; -1 when fewer than 20 rows
+// are usable, no fit is possible, or the best t0 is within 3 rows of the
+// first candidate (the bend lies before the window: a curve that has been
+// bending from the start has no one place where it bent).
+func hingeRow(x []float64, lo, hi, last int) int {
+	hi = min(hi, len(x)-1)
+	last = min(last, hi-3)
+	if n := tracked(x[max(lo, 0) : hi+1]); lo < 0 || n < 20 {
+		return -1
+	}
+	best, bestRSS := -1, math.Inf(1)
+	for t0 := lo + 10; t0 <= last; t0++ {
+		var A [4][4]float64
+		var b [4]float64
+		for t := lo; t <= hi; t++ {
+			if math.IsNaN(x[t]) {
+				continue
+			}
+			h := math.Max(0, float64(t-t0))
+			v := [4]float64{1, float64(t - t0), h, h * h}
+			for i := 0; i < 4; i++ {
+				for j := 0; j <= i; j++ {
+					A[i][j] += v[i] * v[j]
+				}
+				b[i] += v[i] * x[t]
+			}
+		}
+		c, ok := solve4(A, b)
+		if !ok {
+			continue
+		}
+		rss := 0.0
+		for t := lo; t <= hi; t++ {
+			if math.IsNaN(x[t]) {
+				continue
+			}
+			h := math.Max(0, float64(t-t0))
+			e := x[t] - (c[0] + c[1]*float64(t-t0) + c[2]*h + c[3]*h*h)
+			rss += e * e
+		}
+		if rss < bestRSS {
+			best, bestRSS = t0, rss
+		}
+	}
+	if best < 0 || best < lo+10+3 {
+		return -1
+	}
+	// A curve that bends the same way all along (a parabola over the
+	// whole window) has no one place where it bent: the two-phase fit must
+	// beat a single parabola by the F ratio HingeF (its two extra
+	// parameters against the residual variance).
+	var A [4][4]float64
+	var b [4]float64
+	n := 0
+	for t := lo; t <= hi; t++ {
+		if math.IsNaN(x[t]) {
+			continue
+		}
+		u := float64(t - best)
+		v := [4]float64{1, u, u * u, 0}
+		for i := 0; i < 3; i++ {
+			for j := 0; j <= i; j++ {
+				A[i][j] += v[i] * v[j]
+			}
+			b[i] += v[i] * x[t]
+		}
+		n++
+	}
+	A[3][3] = 1 // the unused fourth parameter
+	c, ok := solve4(A, b)
+	if !ok || n <= 5 {
+		return -1
+	}
+	rssQ := 0.0
+	for t := lo; t <= hi; t++ {
+		if math.IsNaN(x[t]) {
+			continue
+		}
+		u := float64(t - best)
+		e := x[t] - (c[0] + c[1]*u + c[2]*u*u)
+		rssQ += e * e
+	}
+	if bestRSS <= 0 || (rssQ-bestRSS)/2/(bestRSS/float64(n-5)) < HingeF {
+		return -1
+	}
+	return best
+}
+
+// HingeF is the F ratio by which hingeRow's two-phase fit must beat a single
+// parabola: 10, above the 0.1 % point of the F distribution with 2 and 100
+// degrees of freedom (7.4, from memory), as the bend's row is itself fitted
+// (common practice: a change-point test is stricter than the plain F test).
+const HingeF = 10.0
 
 // collapse finds the collapse row from motion energy, the top level's
 // speed, and lost points: for each signal the change point of the jump

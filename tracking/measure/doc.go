@@ -103,10 +103,16 @@
 // TwistFloorDeg), provided the level then twists by TwistModeDeg that way
 // before the collapse: a braced tower turns a degree or so as it nears
 // failure, smoothly and ever faster, which curves away from that line too
-// but is not the tower starting to twist. The onset is the CUSUM's change
-// point, but no earlier than the departure's last rise through
+// but is not the tower starting to twist. The departure is placed at the
+// CUSUM's change point, but no earlier than its last rise through
 // TwistRiseDeg (an early trend a little off, extended far, would otherwise
-// pull it back toward the baseline window). Collapse is where a jump of the
+// pull it back toward the baseline window). A runaway that starts slowly
+// leaves the trend only some frames after it began, so the onset is then
+// moved back to where the twist's trend bent: the row where a straight
+// line turning into a parabola best fits the twist over up to
+// 2*TwistHingeRows rows before the departure (a two-phase regression,
+// hingeRow), when that fits clearly better than one parabola (HingeF) and
+// the bend lies inside the window. Collapse is where a jump of the
 // motion energy (when given) or of the top level's speed began, or where
 // most points were lost.
 //

@@ -112,6 +112,7 @@ type Member struct {
 
 	panelMM   float64   // for a leg marked at mid-panel: its longest panel, mm (else 0)
 	rawStrain []float64 // the chord's image length change, percent, before the levels' motions are divided out (nil: not kept)
+	refPx     float64   // the chord's length in the reference frame, px (0: unknown)
 	slidFrom  []int     // per point: the row from which its track is not used because it left the member (see SlideRatio); -1 = none; nil = none at all
 }
 

@@ -72,6 +72,7 @@ func (g *geom) members(levels []Level) []Member {
 		a, b := ps[0], ps[len(ps)-1]
 		refLen := math.Hypot(b.ref[0]-a.ref[0], b.ref[1]-a.ref[1])
 		M.LengthMM = refLen * g.s
+		M.refPx = refLen
 		if a.hasPlan && b.hasPlan && a.hasH && b.hasH {
 			M.LengthMM = math.Sqrt(sq(a.plan[0]-b.plan[0]) + sq(a.plan[1]-b.plan[1]) + sq(a.height-b.height))
 		}

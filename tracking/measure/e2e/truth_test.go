@@ -50,6 +50,8 @@ const (
 	// tolBreak is the limit on the first member's break frame (measured:
 	// 0 to 2 frames late on every case here).
 	tolBreak = 3
+	// tolTwistOnset is the twist onset's tolerance, frames.
+	tolTwistOnset = 15
 )
 
 // checkAgainstTruth compares a measurement and diagnosis with the truth.
@@ -126,6 +128,25 @@ func checkAgainstTruth(t *testing.T, tr *synth.Truth, res *measure.Result, d *me
 	// K = 1.0), and K = panel / leg length relative to the whole leg.
 	if tr.FailureMode == measure.ModeLegBetweenBraces {
 		checkPanelBuckle(t, tr, res)
+	}
+	// A whole-tower twist: its onset where the truth's runaway begins,
+	// within tolTwistOnset frames (the runaway starts at zero rate, so the
+	// bend of the trend is what can be found, not a jump).
+	if tr.FailureMode == measure.ModeTowerTwist {
+		var on *measure.Event
+		for i, e := range d.Events {
+			if e.Kind == measure.EventTwistOnset && on == nil {
+				on = &d.Events[i]
+			}
+		}
+		switch {
+		case on == nil:
+			t.Errorf("no twist onset (truth frame %d)", tr.OnsetFrame)
+		case on.Frame < tr.OnsetFrame-tolTwistOnset || on.Frame > tr.OnsetFrame+tolTwistOnset:
+			t.Errorf("twist onset at frame %d, truth %d (limit %d frames)", on.Frame, tr.OnsetFrame, tolTwistOnset)
+		default:
+			t.Logf("twist onset frame %d, truth %d", on.Frame, tr.OnsetFrame)
+		}
 	}
 	if tr.FirstMember == "" {
 		return
