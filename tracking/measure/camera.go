@@ -331,3 +331,29 @@ func dot(a, b []float64) float64 {
 	}
 	return s
 }
+
+// levelScale returns the scale, mm per image px along the image's x axis,
+// that the camera gives for plan offsets along r (the camera's right
+// vector) at the height of the points ps, around their plan centre; false
+// without a camera or heights, or when the projection fails.
+func (p *Pinhole) levelScale(ps []*point, r [2]float64) (float64, bool) {
+	if p == nil || len(ps) == 0 {
+		return 0, false
+	}
+	var cx, cy, h float64
+	for _, q := range ps {
+		if !q.hasPlan || !q.hasH {
+			return 0, false
+		}
+		cx += q.plan[0] / float64(len(ps))
+		cy += q.plan[1] / float64(len(ps))
+		h += q.height / float64(len(ps))
+	}
+	const d = 10.0 // mm either side
+	u1, _, ok1 := p.Project(cx-d*r[0], cy-d*r[1], h)
+	u2, _, ok2 := p.Project(cx+d*r[0], cy+d*r[1], h)
+	if !ok1 || !ok2 || u2 == u1 {
+		return 0, false
+	}
+	return 2 * d / math.Abs(u2-u1), true
+}

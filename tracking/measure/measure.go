@@ -563,10 +563,17 @@ func (g *geom) levels(notes []string) ([]Level, []string) {
 			slope, _ := lineFit(q, uref)
 			if slope > 0 {
 				sl := 1 / slope
-				if math.Abs(sl/g.s-1) <= 0.1 {
+				// Against the scale the fitted camera gives at the level's
+				// height (a camera well above or below the tower sees its
+				// levels at different distances), else the marks' scale.
+				want, against := g.s, "the marks' scale"
+				if ws, ok := cam.levelScale(ps, r); ok {
+					want, against = ws, "the camera fitted to the marks"
+				}
+				if math.Abs(sl/want-1) <= 0.1 {
 					sL = sl
 				} else {
-					notes = append(notes, fmt.Sprintf("level %d: its marked points' plan positions and image positions disagree on scale by %.0f%% (check the camera azimuth, the tower sizes and the point legs); using the marks' scale", lv, 100*(sl/g.s-1)))
+					notes = append(notes, fmt.Sprintf("level %d: its marked points' plan positions and image positions disagree on scale by %.0f%% with %s (check the camera azimuth, the tower sizes and the point legs); using the marks' scale", lv, 100*(sl/want-1), against))
 				}
 			}
 		}
