@@ -1319,6 +1319,9 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 		parts = append(parts, s)
 	case first != nil:
 		parts = append(parts, fmt.Sprintf("%s broke without bowing first at %s (%s)", describe(first.m, res), fmtTime(first.brk, res, fps), first.brkDet))
+		if others, joint := cameOffTogether(d, first, res); joint != "" {
+			parts = append(parts, fmt.Sprintf("%s came off with it within %d frames, and they meet at joint %s, so that joint most likely let go", strings.Join(others, " and "), TogetherRows, joint))
+		}
 		last = first.brk
 	}
 	if twRow >= 0 {
@@ -1354,6 +1357,61 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 	s := strings.Join(parts, "; ")
 	s = strings.ToUpper(s[:1]) + s[1:] + "."
 	return s + " Failure mode: " + strings.ReplaceAll(d.Mode, "_", " ") + "."
+}
+
+// TogetherRows is how many frames apart breaks may be and still count as
+// members coming off together (common practice: a glued joint letting go
+// frees all its members in the same instant; blur and tracking spread that
+// over a frame or two).
+const TogetherRows = 2
+
+// cameOffTogether returns the other members whose breaks came within
+// TogetherRows of the first member's, and the one joint (an end point) all
+// of them, the first member included, share; "" when there are none or
+// they share no single joint.
+func cameOffTogether(d *Diagnosis, first *memberFind, res *Result) ([]string, string) {
+	ends := func(m *Member) []string {
+		if len(m.Points) < 2 {
+			return nil
+		}
+		return []string{m.Points[0], m.Points[len(m.Points)-1]}
+	}
+	common := map[string]bool{}
+	for _, p := range ends(first.m) {
+		common[p] = true
+	}
+	var others []string
+	for _, e := range d.Events {
+		if e.Kind != EventBreak || e.Member == first.m.ID || e.Row < first.brk-TogetherRows || e.Row > first.brk+TogetherRows {
+			continue
+		}
+		var m *Member
+		for i := range res.Members {
+			if res.Members[i].ID == e.Member {
+				m = &res.Members[i]
+			}
+		}
+		if m == nil || m.Kind == "block" {
+			continue
+		}
+		has := map[string]bool{}
+		for _, p := range ends(m) {
+			has[p] = true
+		}
+		for p := range common {
+			if !has[p] {
+				delete(common, p)
+			}
+		}
+		others = append(others, e.Member)
+	}
+	if len(others) == 0 || len(common) != 1 {
+		return nil, ""
+	}
+	for p := range common {
+		return others, p
+	}
+	return nil, ""
 }
 
 func hasDiagonals(res *Result) bool {

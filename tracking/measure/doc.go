@@ -140,7 +140,9 @@
 //   - joint_or_base: no member bowed, but one broke or lost its track before
 //     the collapse, or the tower collapsed without warning: a glue joint or
 //     the base let go (a bow that reaches 0.5 % within JumpRows frames
-//     without growing first counts as a break). This needs at least one
+//     without growing first counts as a break). When other members came
+//     off within TogetherRows frames and all share one end point, the
+//     account names that joint. This needs at least one
 //     member marked between its ends (a bow that could have been seen),
 //     and a collapse without any warning also needs a level whose twist
 //     is observable; otherwise the failure is undetermined, since a
