@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 
 	"gocv.io/x/gocv"
 
@@ -149,6 +150,21 @@ func Track(src capture.Source, m *marks.File, opt Options, rng Range, hooks Hook
 		}
 		out.Frames = append(out.Frames, frame)
 		out.Samples = append(out.Samples, s)
+		// A point whose reference patch turned out not to be its marker:
+		// what was tracked before is not the point.
+		for _, k := range tr.voided {
+			if k < 0 {
+				continue
+			}
+			for r := 0; r < len(out.Samples)-1; r++ {
+				if out.Frames[r] != m.ReferenceFrame {
+					out.Samples[r][k] = tracks.Sample{X: math.NaN(), Y: math.NaN(), Lost: true}
+				}
+			}
+			if hooks.Warn != nil {
+				hooks.Warn(fmt.Sprintf("point %s: its marker showed at the marked place at frame %d looking unlike its reference patch (a cord or a hand was over it there), so its track before that followed something else and is reported lost", out.IDs[k], frame))
+			}
+		}
 		if hooks.OnFrame != nil {
 			if err := hooks.OnFrame(frame, *fr.img, s); err != nil {
 				return nil, err

@@ -201,6 +201,18 @@ type pointState struct {
 	waiting bool
 	seen    int
 	seenRaw []float64
+	// edgeRef is set for a point tracked from a reference patch that is one
+	// straight edge along its members (warned about, not held): when it is
+	// lost within the first Options.UncoverFrames frames it waits for its
+	// marker at the marked place like a covered one (the edge may have
+	// been a cord over the marker, which has now moved on), and goes back to
+	// the plain search for a lost point when those frames are over.
+	edgeRef bool
+	// retemplated is set once the point's template was taken again at its
+	// marked place (uncover): lost again within the first UncoverFrames
+	// frames, it waits there again, as the new patch may still have held
+	// part of what covered the marker.
+	retemplated bool
 }
 
 // Tracker follows the marked points frame by frame. It is not safe for
@@ -227,6 +239,10 @@ type Tracker struct {
 	match    gocv.Mat
 	noMask   gocv.Mat
 	warnings []string
+	// voided lists, after a Step, the points whose samples before it were
+	// found to be of something else (see pointState.edgeRef): their marker
+	// showed at the marked place looking unlike their reference patch.
+	voided []int
 }
 
 // New prepares a tracker for the points of m, whose px positions are in the
@@ -309,6 +325,7 @@ func New(m *marks.File, ref gocv.Mat, opt Options) (*Tracker, error) {
 			d0x: p.PX[0] - float64(ax), d0y: p.PX[1] - float64(ay),
 			cx: float64(ax), cy: float64(ay),
 			waiting: waiting, lost: waiting,
+			edgeRef: tp.isotropy < opt.MinIsotropy && !waiting && opt.UncoverFrames > 0 && !opt.PlainLK,
 		})
 	}
 	t.rf.ensure(opt.Window / 2)
@@ -355,6 +372,11 @@ func alongMember(dir float64, dirs []float64) bool {
 // UncoverFrames frames.
 func (t *Tracker) uncover(p *pointState, cur grayImage) tracks.Sample {
 	if t.gen > uint64(t.opt.UncoverFrames) {
+		if p.edgeRef || p.retemplated {
+			// It was tracked once: search for it as for any lost point.
+			p.waiting, p.edgeRef, p.retemplated = false, false, false
+			return t.stepPoint(p, cur)
+		}
 		return p.sample(0)
 	}
 	ax, ay, r := p.tp.anchorX, p.tp.anchorY, p.tp.r
@@ -379,10 +401,29 @@ func (t *Tracker) uncover(p *pointState, cur grayImage) tracks.Sample {
 	p.tmpl.Close()
 	p.tmpl = region.Clone()
 	region.Close()
-	p.tp, p.waiting, p.avgDone = tp, false, true
+	if p.edgeRef && zncc(p.tp.raw, tp.raw) < voidSame {
+		t.voided = append(t.voided, t.pointIndex(p))
+	}
+	p.tp, p.waiting, p.avgDone, p.edgeRef, p.retemplated = tp, false, true, false, true
 	p.cx, p.cy, p.typ = float64(ax), float64(ay), 0
 	p.accept(p.cx, p.cy, 1)
 	return p.sample(1)
+}
+
+// voidSame is the correlation below which a marker found at its marked
+// place is not what the reference patch showed, so that the track followed
+// from that patch was of something else (common practice: the same marker
+// under the same light correlates above 0.9).
+const voidSame = 0.8
+
+// pointIndex returns p's index in t.pts.
+func (t *Tracker) pointIndex(p *pointState) int {
+	for i := range t.pts {
+		if &t.pts[i] == p {
+			return i
+		}
+	}
+	return -1
 }
 
 // A waiting point's marker counts as uncovered when its patch looks like a
@@ -506,6 +547,7 @@ func (t *Tracker) Step(frame int, img gocv.Mat) ([]tracks.Sample, error) {
 	}
 	t.frame, t.grayOK = img, false
 	t.gen++
+	t.voided = t.voided[:0]
 	t.rf.gen = t.gen
 	out := make([]tracks.Sample, len(t.pts))
 	if t.opt.PlainLK {
@@ -659,6 +701,9 @@ func (t *Tracker) stepPoint(p *pointState, cur grayImage) tracks.Sample {
 	}
 	best = math.Max(best, q)
 	p.lost, p.lostFor, p.candOK = true, 0, false
+	if (p.edgeRef || p.retemplated) && t.gen <= uint64(o.UncoverFrames) {
+		p.waiting, p.seen, p.seenRaw = true, 0, nil
+	}
 	return p.sample(best)
 }
 
