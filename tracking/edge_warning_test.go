@@ -50,24 +50,14 @@ func TestEdgeLikeReferenceWarns(t *testing.T) {
 // a plain member whose edge runs along that member is tracked from the
 // start.
 func TestCoveredMarkerUncovered(t *testing.T) {
-	member := shape{x: 80, y: 60, len: 70, wid: 2, ang: 0.6, sigma: 0.6, amp: 50}
-	// A stick-on marker: a dark dot in a white ring, wider than the member.
-	ring := shape{x: 80, y: 60, sigma: 3.5, amp: 110}
-	dot := shape{x: 80, y: 60, sigma: 1.5, amp: -140}
 	const away = 12 // the cord swings off the marker at this frame
-	cordBody := body{shapes: []shape{{x: 80, y: 60, len: 80, wid: 5, ang: math.Pi / 2, sigma: 0.8, amp: -75}},
-		move: func(i int) pose {
-			if i < away {
-				return pose{dx: 0.2 * float64(i)}
-			}
-			return pose{dx: 30 + 0.2*float64(i)}
-		}}
-	tower := body{shapes: []shape{member, ring, dot}, move: func(int) pose { return pose{} }}
-	m := &marks.File{
-		Points:  []marks.Point{{ID: "AB-d1-mid", PX: [2]float64{80, 60}}, {ID: "A1", PX: [2]float64{80 - 60*math.Cos(0.6), 60 - 60*math.Sin(0.6)}}, {ID: "B1", PX: [2]float64{80 + 60*math.Cos(0.6), 60 + 60*math.Sin(0.6)}}},
-		Members: []marks.Member{{ID: "AB-d1", Kind: marks.KindBrace, Points: []string{"A1", "AB-d1-mid", "B1"}}},
-	}
-	sc := &scene{w: 200, h: 160, bg: 90, bodies: []body{tower, cordBody}, noise: 1, seed: 9}
+	sc := markerScene(0.6, 80, func(i int) pose {
+		if i < away {
+			return pose{dx: 0.2 * float64(i)}
+		}
+		return pose{dx: 30 + 0.2*float64(i)}
+	})
+	m := braceMarks()
 	opt := DefaultOptions()
 	tr, img := sc.start(t, &marks.File{Points: m.Points[:1], Members: m.Members}, opt)
 	if w := tr.Warnings(); len(w) != 1 || !strings.Contains(w[0], "held as lost") {
@@ -98,26 +88,20 @@ func TestCoveredMarkerUncovered(t *testing.T) {
 // template of a cord can never find the marker again). Its track before
 // that, of the cord, is void.
 func TestCordAlongMemberUncovered(t *testing.T) {
-	member := shape{x: 80, y: 60, len: 70, wid: 2, ang: math.Pi / 2, sigma: 0.6, amp: 50}
-	ring := shape{x: 80, y: 60, sigma: 3.5, amp: 110}
-	dot := shape{x: 80, y: 60, sigma: 1.5, amp: -140}
 	const away = 12 // the cord swings off the marker at this frame
-	cordBody := body{shapes: []shape{{x: 80, y: 60, len: 80, wid: 5, ang: math.Pi / 2, sigma: 0.8, amp: -75}},
-		move: func(i int) pose {
-			if i < away {
-				return pose{dx: 0.2 * float64(i)}
-			}
-			return pose{dx: 30 + 0.2*float64(i)}
-		}}
 	// The leg's next marker, up the leg and behind the cord too.
-	ring1, dot1 := ring, dot
-	ring1.y, dot1.y = 30, 30
-	tower := body{shapes: []shape{member, ring, dot, ring1, dot1}, move: func(int) pose { return pose{} }}
+	ring1 := shape{x: 80, y: 30, sigma: 3.5, amp: 110}
+	dot1 := shape{x: 80, y: 30, sigma: 1.5, amp: -140}
+	sc := markerScene(math.Pi/2, 80, func(i int) pose {
+		if i < away {
+			return pose{dx: 0.2 * float64(i)}
+		}
+		return pose{dx: 30 + 0.2*float64(i)}
+	}, ring1, dot1)
 	m := &marks.File{
 		Points:  []marks.Point{{ID: "C0", PX: [2]float64{80, 60}}, {ID: "C1", PX: [2]float64{80, 30}}},
 		Members: []marks.Member{{ID: "leg-C", Kind: marks.KindLeg, Points: []string{"C0", "C1"}}},
 	}
-	sc := &scene{w: 200, h: 160, bg: 90, bodies: []body{tower, cordBody}, noise: 1, seed: 9}
 	tr, img := sc.start(t, m, DefaultOptions())
 	if w := tr.Warnings(); len(w) != 2 || strings.Contains(w[0]+w[1], "held as lost") {
 		t.Fatalf("warnings %q, want two that do not hold the points", w)
@@ -151,23 +135,14 @@ func TestCordAlongMemberUncovered(t *testing.T) {
 // within 0.05 px of its place (the scene's exact truth) and its earlier
 // track, of the cord, is void (common practice, as above).
 func TestHalfCoveredMarkerFoundAtItsPlace(t *testing.T) {
-	member := shape{x: 80, y: 60, len: 70, wid: 2, ang: 0.6, sigma: 0.6, amp: 50}
-	ring := shape{x: 80, y: 60, sigma: 3.5, amp: 110}
-	dot := shape{x: 80, y: 60, sigma: 1.5, amp: -140}
 	const away = 15
-	cordBody := body{shapes: []shape{{x: 86, y: 60, len: 80, wid: 5, ang: math.Pi / 2, sigma: 0.8, amp: -75}},
-		move: func(i int) pose {
-			if i < away {
-				return pose{dx: 0.15 * float64(i)}
-			}
-			return pose{dx: 40}
-		}}
-	tower := body{shapes: []shape{member, ring, dot}, move: func(int) pose { return pose{} }}
-	m := &marks.File{
-		Points:  []marks.Point{{ID: "AB-d1-mid", PX: [2]float64{80, 60}}, {ID: "A1", PX: [2]float64{80 - 60*math.Cos(0.6), 60 - 60*math.Sin(0.6)}}, {ID: "B1", PX: [2]float64{80 + 60*math.Cos(0.6), 60 + 60*math.Sin(0.6)}}},
-		Members: []marks.Member{{ID: "AB-d1", Kind: marks.KindBrace, Points: []string{"A1", "AB-d1-mid", "B1"}}},
-	}
-	sc := &scene{w: 200, h: 160, bg: 90, bodies: []body{tower, cordBody}, noise: 1, seed: 9}
+	sc := markerScene(0.6, 86, func(i int) pose {
+		if i < away {
+			return pose{dx: 0.15 * float64(i)}
+		}
+		return pose{dx: 40}
+	})
+	m := braceMarks()
 	tr, img := sc.start(t, &marks.File{Points: m.Points[:1], Members: m.Members}, DefaultOptions())
 	if w := tr.Warnings(); len(w) != 0 {
 		t.Fatalf("warnings %q, want none (the patch is not one edge)", w)
@@ -186,5 +161,26 @@ func TestHalfCoveredMarkerFoundAtItsPlace(t *testing.T) {
 	}
 	if !voided {
 		t.Error("the track followed from the half-covered patch was not made void")
+	}
+}
+
+// markerScene is a stick-on marker (a dark dot in a white ring, wider than
+// the member) at (80, 60) on a member at angle ang, with a dark vertical
+// cord at x = cordX moved by move, over a 200 x 160 background; more adds
+// shapes to the tower. The tower stands still.
+func markerScene(ang, cordX float64, move func(i int) pose, more ...shape) *scene {
+	member := shape{x: 80, y: 60, len: 70, wid: 2, ang: ang, sigma: 0.6, amp: 50}
+	ring := shape{x: 80, y: 60, sigma: 3.5, amp: 110}
+	dot := shape{x: 80, y: 60, sigma: 1.5, amp: -140}
+	cord := body{shapes: []shape{{x: cordX, y: 60, len: 80, wid: 5, ang: math.Pi / 2, sigma: 0.8, amp: -75}}, move: move}
+	tower := body{shapes: append([]shape{member, ring, dot}, more...), move: func(int) pose { return pose{} }}
+	return &scene{w: 200, h: 160, bg: 90, bodies: []body{tower, cord}, noise: 1, seed: 9}
+}
+
+// braceMarks marks the middle of a brace at angle 0.6 through (80, 60).
+func braceMarks() *marks.File {
+	return &marks.File{
+		Points:  []marks.Point{{ID: "AB-d1-mid", PX: [2]float64{80, 60}}, {ID: "A1", PX: [2]float64{80 - 60*math.Cos(0.6), 60 - 60*math.Sin(0.6)}}, {ID: "B1", PX: [2]float64{80 + 60*math.Cos(0.6), 60 + 60*math.Sin(0.6)}}},
+		Members: []marks.Member{{ID: "AB-d1", Kind: marks.KindBrace, Points: []string{"A1", "AB-d1-mid", "B1"}}},
 	}
 }
