@@ -397,14 +397,22 @@ func (t *Tracker) uncover(p *pointState, cur grayImage) tracks.Sample {
 	if p.seen < uncoverRuns {
 		return p.sample(0)
 	}
-	p.seenRaw = nil
+	return t.retemplate(p, tp, p.edgeRef && zncc(p.tp.raw, tp.raw) < voidSame)
+}
+
+// retemplate makes tp, the patch at p's marked place in the frame being
+// stepped, p's template and tracks p from there; void marks p's earlier
+// samples as of something else (Tracker.voided).
+func (t *Tracker) retemplate(p *pointState, tp *template, void bool) tracks.Sample {
+	ax, ay, r := tp.anchorX, tp.anchorY, tp.r
+	p.seen, p.seenRaw = 0, nil
 	t.ensureGray()
 	side := 2*r + 1
 	region := t.gray.Region(image.Rect(ax-r, ay-r, ax-r+side, ay-r+side))
 	p.tmpl.Close()
 	p.tmpl = region.Clone()
 	region.Close()
-	if p.edgeRef && zncc(p.tp.raw, tp.raw) < voidSame {
+	if void {
 		t.voided = append(t.voided, t.pointIndex(p))
 	}
 	p.tp, p.waiting, p.avgDone, p.edgeRef, p.retemplated = tp, false, true, false, true
@@ -759,8 +767,7 @@ func (t *Tracker) markedPlace(p *pointState, cur grayImage) (tracks.Sample, bool
 	if p.seen < uncoverRuns {
 		return tracks.Sample{}, false
 	}
-	p.edgeRef = true // so that uncover voids the track followed so far
-	return t.uncover(p, cur), true
+	return t.retemplate(p, tp, true), true
 }
 
 // learn gathers still-background evidence for p every few frames (the
