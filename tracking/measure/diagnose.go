@@ -998,35 +998,11 @@ func hingeRow(x []float64, lo, hi, last int) int {
 	}
 	best, bestRSS := -1, math.Inf(1)
 	for t0 := lo + 10; t0 <= last; t0++ {
-		var A [4][4]float64
-		var b [4]float64
-		for t := lo; t <= hi; t++ {
-			if math.IsNaN(x[t]) {
-				continue
-			}
+		rss, _, ok := fitRSS(x, lo, hi, func(t int) [4]float64 {
 			h := math.Max(0, float64(t-t0))
-			v := [4]float64{1, float64(t - t0), h, h * h}
-			for i := 0; i < 4; i++ {
-				for j := 0; j <= i; j++ {
-					A[i][j] += v[i] * v[j]
-				}
-				b[i] += v[i] * x[t]
-			}
-		}
-		c, ok := solve4(A, b)
-		if !ok {
-			continue
-		}
-		rss := 0.0
-		for t := lo; t <= hi; t++ {
-			if math.IsNaN(x[t]) {
-				continue
-			}
-			h := math.Max(0, float64(t-t0))
-			e := x[t] - (c[0] + c[1]*float64(t-t0) + c[2]*h + c[3]*h*h)
-			rss += e * e
-		}
-		if rss < bestRSS {
+			return [4]float64{1, float64(t - t0), h, h * h}
+		})
+		if ok && rss < bestRSS {
 			best, bestRSS = t0, rss
 		}
 	}
@@ -1036,7 +1012,23 @@ func hingeRow(x []float64, lo, hi, last int) int {
 	// A curve that bends the same way all along (a parabola over the
 	// whole window) has no one place where it bent: the two-phase fit must
 	// beat a single parabola by the F ratio HingeF (its two extra
-	// parameters against the residual variance).
+	// parameters against the residual variance). The parabola's unused
+	// fourth parameter is pinned by a unit diagonal.
+	rssQ, n, ok := fitRSS(x, lo, hi, func(t int) [4]float64 {
+		u := float64(t - best)
+		return [4]float64{1, u, u * u, 0}
+	})
+	if !ok || n <= 5 || bestRSS <= 0 || (rssQ-bestRSS)/2/(bestRSS/float64(n-5)) < HingeF {
+		return -1
+	}
+	return best
+}
+
+// fitRSS fits x over rows lo..hi (NaN rows skipped) by least squares to the
+// four basis values of each row (a basis that is always 0 leaves its
+// parameter pinned at 0) and returns the residual sum of squares and the
+// number of rows used; false when the normal equations cannot be solved.
+func fitRSS(x []float64, lo, hi int, basis func(t int) [4]float64) (float64, int, bool) {
 	var A [4][4]float64
 	var b [4]float64
 	n := 0
@@ -1044,9 +1036,8 @@ func hingeRow(x []float64, lo, hi, last int) int {
 		if math.IsNaN(x[t]) {
 			continue
 		}
-		u := float64(t - best)
-		v := [4]float64{1, u, u * u, 0}
-		for i := 0; i < 3; i++ {
+		v := basis(t)
+		for i := 0; i < 4; i++ {
 			for j := 0; j <= i; j++ {
 				A[i][j] += v[i] * v[j]
 			}
@@ -1054,24 +1045,25 @@ func hingeRow(x []float64, lo, hi, last int) int {
 		}
 		n++
 	}
-	A[3][3] = 1 // the unused fourth parameter
-	c, ok := solve4(A, b)
-	if !ok || n <= 5 {
-		return -1
+	for i := 0; i < 4; i++ {
+		if A[i][i] == 0 {
+			A[i][i] = 1 // an unused parameter
+		}
 	}
-	rssQ := 0.0
+	c, ok := solve4(A, b)
+	if !ok {
+		return 0, n, false
+	}
+	rss := 0.0
 	for t := lo; t <= hi; t++ {
 		if math.IsNaN(x[t]) {
 			continue
 		}
-		u := float64(t - best)
-		e := x[t] - (c[0] + c[1]*u + c[2]*u*u)
-		rssQ += e * e
+		v := basis(t)
+		e := x[t] - (c[0]*v[0] + c[1]*v[1] + c[2]*v[2] + c[3]*v[3])
+		rss += e * e
 	}
-	if bestRSS <= 0 || (rssQ-bestRSS)/2/(bestRSS/float64(n-5)) < HingeF {
-		return -1
-	}
-	return best
+	return rss, n, true
 }
 
 // HingeF is the F ratio by which hingeRow's two-phase fit must beat a single
@@ -1391,7 +1383,7 @@ func cameOffTogether(d *Diagnosis, first *memberFind, res *Result) ([]string, st
 				m = &res.Members[i]
 			}
 		}
-		if m == nil || m.Kind == "block" {
+		if m == nil || m.Kind == marks.KindBlock {
 			continue
 		}
 		has := map[string]bool{}

@@ -592,11 +592,15 @@ func (bm *bowModel) bow(dx, dy float64, full bool) float64 {
 	w := math.Hypot(bm.n[0]*bm.m[0][0]+bm.n[1]*bm.m[1][0], bm.n[0]*bm.m[0][1]+bm.n[1]*bm.m[1][1])
 	b1 := math.Abs(perp) / w
 	if bm.full && full {
-		al := bm.inv[0][0]*dx + bm.inv[0][1]*dy
-		be := bm.inv[1][0]*dx + bm.inv[1][1]*dy
-		return math.Min(math.Hypot(al, be), bm.cap*b1)
+		return math.Min(bm.solve(dx, dy), bm.cap*b1)
 	}
 	return b1
+}
+
+// solve returns the 3D bow, mm, that the full solve (both image components,
+// uncapped) gives for an image offset (dx, dy) px; only for a full model.
+func (bm *bowModel) solve(dx, dy float64) float64 {
+	return math.Hypot(bm.inv[0][0]*dx+bm.inv[0][1]*dy, bm.inv[1][0]*dx+bm.inv[1][1]*dy)
 }
 
 // BowObliqueMax caps a bow read from both image components at this many
@@ -648,10 +652,11 @@ func trailingLine(x []float64, w int) []float64 {
 // SlideRatio times what the model would accept (cap times the across-chord
 // bow, plus the onset floor), the point has left the brace: it is not used
 // from the row where that departure began (the last row its full solve was
-// under the onset floor) on, once SlideRows such rows have run. Common practice (a consistency test of the
-// measurement, like the bow model's own cap): on the 38 synthesizer scenes
-// checked, genuinely bowing braces stayed below 1.3 times, a mid-point
-// handed over to a cord reached 90 times.
+// under the onset floor) on, once SlideRows such rows have run. Common
+// practice (a consistency test of the measurement, like the bow model's own
+// cap): on the 38 synthesizer scenes checked, genuinely bowing braces
+// stayed below 1.3 times, a mid-point handed over to a cord reached 90
+// times.
 const (
 	SlideRatio   = 4.0
 	SlideMinFrac = 0.02
@@ -686,7 +691,7 @@ func (g *geom) slides(M *Member, ps []*point, models []*bowModel, tpar []float64
 			}
 			dx := x - (ax + tpar[i]*(bx-ax)) - refVec[i][0]
 			dy := y - (ay + tpar[i]*(by-ay)) - refVec[i][1]
-			implied := math.Hypot(bm.inv[0][0]*dx+bm.inv[0][1]*dy, bm.inv[1][0]*dx+bm.inv[1][1]*dy)
+			implied := bm.solve(dx, dy)
 			if implied <= floor {
 				last = row
 				continue
