@@ -4,9 +4,13 @@
 # Renders (once, cached) a 1280x720 H.264 clip of 2100 frames of an invented
 # Z-braced tower with 33 tracked points, then times
 #   ffmpeg -i clip.mp4 -f null -      (decoding only: the floor)
+#   failframe probe clip.mp4 --count  (reading every frame through OpenCV,
+#                                      as analyze does, and nothing else)
 #   failframe analyze clip.mp4 ...    (decode once, track, measure, report)
 # in rounds, and prints each round's ratio of wall times and of CPU times
-# (user + system), their medians, and failframe's peak memory
+# (user + system), their medians, how much of the analysis ratio is reading
+# through OpenCV (which converts every frame to colour and copies it) and how
+# much is failframe's own work, and failframe's peak memory
 # (maximum resident set size: from GNU time when installed, else the
 # process's VmHWM read from /proc while it runs). Targets: ratio <= 1.3,
 # peak < 300 MB. The last line sums it up. A measurement, not a test: it
@@ -116,13 +120,14 @@ OUT=$DIR/report
 : >"$DIR/rounds"
 for round in $(seq 1 "$ROUNDS"); do
 	measure ffmpeg ffmpeg -v error -nostdin -i "$CLIP/tower.mp4" -f null -
+	measure read "$BIN" probe "$CLIP/tower.mp4" --count --quiet
 	measure analyze "$BIN" analyze "$CLIP/tower.mp4" --marks "$CLIP/marks.yaml" \
 		--load "$CLIP/load.csv" --mass-g 21.4 --out "$OUT" --force --quiet
-	echo "$(cat "$DIR/ffmpeg.wall") $(cat "$DIR/ffmpeg.cpu") $(cat "$DIR/analyze.wall") $(cat "$DIR/analyze.cpu") $(cat "$DIR/analyze.rss")" >>"$DIR/rounds"
+	echo "$(cat "$DIR/ffmpeg.wall") $(cat "$DIR/ffmpeg.cpu") $(cat "$DIR/analyze.wall") $(cat "$DIR/analyze.cpu") $(cat "$DIR/analyze.rss") $(cat "$DIR/read.wall")" >>"$DIR/rounds"
 done
 
 awk -v pts="$points" -v codec="$codec" -v load="$load" -v cores="$(nproc)" '
-{ d[NR] = $1; fc[NR] = $2; a[NR] = $3; ac[NR] = $4; rss[NR] = $5; r[NR] = $3 / $1; c[NR] = $4 / $2 }
+{ d[NR] = $1; fc[NR] = $2; a[NR] = $3; ac[NR] = $4; rss[NR] = $5; r[NR] = $3 / $1; c[NR] = $4 / $2; rd[NR] = $6 / $1; own[NR] = ($3 - $6) / $1 }
 function median(x, n,   i, j, t, y) {
 	for (i = 1; i <= n; i++) y[i] = x[i]
 	for (i = 1; i <= n; i++) for (j = i + 1; j <= n; j++) if (y[j] < y[i]) { t = y[i]; y[i] = y[j]; y[j] = t }
@@ -134,9 +139,10 @@ END {
 	printf "machine: %d cores, load average %s before the runs\n", cores, load
 	peak = 0
 	for (i = 1; i <= n; i++) {
-		printf "round %d: ffmpeg decode (-f null) %.2f s wall, %.2f s CPU; failframe analyze %.2f s wall, %.2f s CPU; wall ratio %.2f, CPU ratio %.2f\n", i, d[i], fc[i], a[i], ac[i], r[i], c[i]
+		printf "round %d: ffmpeg decode (-f null) %.2f s wall, %.2f s CPU; failframe analyze %.2f s wall, %.2f s CPU; wall ratio %.2f, CPU ratio %.2f; reading alone %.2f\n", i, d[i], fc[i], a[i], ac[i], r[i], c[i], rd[i]
 		if (rss[i] > peak) peak = rss[i]
 	}
 	printf "CPU time ratio (user+sys), median of %d rounds: %.2f\n", n, median(c, n)
+	printf "of the wall ratio, median of %d rounds: reading every frame through OpenCV (failframe probe --count) %.2f; failframe'"'"'s own work on top of it +%.2f\n", n, median(rd, n), median(own, n)
 	printf "analyze/decode wall ratio, median of %d rounds: %.2f (target <= 1.3); peak memory: %.0f MB (target < 300 MB)\n", n, median(r, n), peak / 1024
 }' "$DIR/rounds"
