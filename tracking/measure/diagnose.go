@@ -1309,8 +1309,14 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 			last = first.brk
 		}
 		parts = append(parts, s)
+		if c := hiddenCaution(first.m, first.onset, res, in); c != "" {
+			parts = append(parts, c)
+		}
 	case first != nil:
 		parts = append(parts, fmt.Sprintf("%s broke without bowing first at %s (%s)", describe(first.m, res), fmtTime(first.brk, res, fps), first.brkDet))
+		if c := hiddenCaution(first.m, first.brk, res, in); c != "" {
+			parts = append(parts, c)
+		}
 		if others, joint := cameOffTogether(d, first, res); joint != "" {
 			parts = append(parts, fmt.Sprintf("%s came off with it within %d frames, and they meet at joint %s, so that joint most likely let go", strings.Join(others, " and "), TogetherRows, joint))
 		}
@@ -1349,6 +1355,81 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 	s := strings.Join(parts, "; ")
 	s = strings.ToUpper(s[:1]) + s[1:] + "."
 	return s + " Failure mode: " + strings.ReplaceAll(d.Mode, "_", " ") + "."
+}
+
+// HiddenNearRows is how many frames before the first member's onset (or its
+// break, when it broke without bowing) the account looks for points near it
+// that were hidden from view (common practice: a cord, a hanger or a hand
+// passing in front of the tower hides the markers around the member it
+// disturbs, and can pull the member's own tracked points with it).
+const HiddenNearRows = 15
+
+// hiddenCaution returns a caution for the account when points near member
+// m (marked within half its image length of its chord),
+// its own included, were lost from view in the HiddenNearRows rows up to
+// row; "" when none were.
+func hiddenCaution(m *Member, row int, res *Result, in Input) string {
+	t := in.Tracks
+	if t == nil || in.Marks == nil || len(m.Points) < 2 || row < 0 {
+		return ""
+	}
+	at := map[string][2]float64{}
+	for _, p := range in.Marks.Points {
+		at[p.ID] = p.PX
+	}
+	a, okA := at[m.Points[0]]
+	b, okB := at[m.Points[len(m.Points)-1]]
+	if !okA || !okB {
+		return ""
+	}
+	reach := 0.5 * math.Hypot(b[0]-a[0], b[1]-a[1])
+	var ids []string
+	first, lastRow := -1, -1
+	for j, id := range t.IDs {
+		p, ok := at[id]
+		if !ok || segDist(a, b, p) > reach {
+			continue
+		}
+		hid := false
+		for r := max(0, row-HiddenNearRows); r <= row && r < len(t.Samples); r++ {
+			if t.Samples[r][j].Lost {
+				hid = true
+				if first < 0 || r < first {
+					first = r
+				}
+				lastRow = max(lastRow, r)
+			}
+		}
+		if hid {
+			ids = append(ids, id)
+		}
+	}
+	if len(ids) == 0 {
+		return ""
+	}
+	who := "point " + ids[0] + " near it was"
+	switch {
+	case len(ids) > 3:
+		who = fmt.Sprintf("points %s and %d more near it were", strings.Join(ids[:3], ", "), len(ids)-3)
+	case len(ids) > 1:
+		who = "points " + strings.Join(ids[:len(ids)-1], ", ") + " and " + ids[len(ids)-1] + " near it were"
+	}
+	span := fmt.Sprintf("at frame %d", res.Frames[first])
+	if lastRow > first {
+		span = fmt.Sprintf("between frames %d and %d", res.Frames[first], res.Frames[lastRow])
+	}
+	return fmt.Sprintf("but %s hidden from view %s, so something may have passed in front of it: check this against the evidence frames", who, span)
+}
+
+// segDist is point p's distance from the segment a-b.
+func segDist(a, b, p [2]float64) float64 {
+	dx, dy := b[0]-a[0], b[1]-a[1]
+	l2 := dx*dx + dy*dy
+	u := 0.0
+	if l2 > 0 {
+		u = math.Max(0, math.Min(1, ((p[0]-a[0])*dx+(p[1]-a[1])*dy)/l2))
+	}
+	return math.Hypot(p[0]-a[0]-u*dx, p[1]-a[1]-u*dy)
 }
 
 // TogetherRows is how many frames apart breaks may be and still count as

@@ -148,4 +148,11 @@
 //     is observable; otherwise the failure is undetermined, since a
 //     buckling member or a twisting tower would look the same.
 //   - undetermined: nothing of the above was seen.
+//
+// When points marked near the first member (within half its image length of
+// its chord, its own included) were lost from view in the HiddenNearRows
+// frames up to its onset, or up to its break when it broke without bowing,
+// the account says so, naming them and the frames: a cord or a hand passing
+// there may have pulled the member's tracked points. The verdict itself is
+// unchanged; the caution asks for a look at the evidence frames.
 package measure
