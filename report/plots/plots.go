@@ -167,23 +167,67 @@ func (c Chart) plot() (*plot.Plot, error) {
 	return p, nil
 }
 
-// segments splits a series at NaN points.
+// MaxPoints bounds the points drawn for one series: a longer one is thinned
+// to the lowest and the highest point of each run of consecutive points
+// (MaxPoints/2 runs), which keeps its peaks and its envelope at a chart's
+// width of about a thousand pixels. A long clip's series would otherwise
+// cost the drawing time and memory in proportion to its frames.
+const MaxPoints = 2000
+
+// segments splits a series at NaN points, thinning a series longer than
+// MaxPoints (see thin).
 func segments(s Series) []plotter.XYs {
+	step := (len(s.X) + MaxPoints/2 - 1) / (MaxPoints / 2)
 	var out []plotter.XYs
 	var cur plotter.XYs
+	flush := func() {
+		if len(cur) > 0 {
+			out = append(out, thin(cur, step))
+			cur = nil
+		}
+	}
 	for i := range s.X {
 		x, y := s.X[i], s.Y[i]
 		if math.IsNaN(x) || math.IsNaN(y) || math.IsInf(x, 0) || math.IsInf(y, 0) {
-			if len(cur) > 0 {
-				out = append(out, cur)
-				cur = nil
-			}
+			flush()
 			continue
 		}
 		cur = append(cur, plotter.XY{X: x, Y: y})
 	}
-	if len(cur) > 0 {
-		out = append(out, cur)
+	flush()
+	return out
+}
+
+// thin keeps, of each run of step consecutive points, the lowest and the
+// highest (in their order; one point when they are the same), and the first
+// and the last point of the line; step < 3 keeps every point.
+func thin(xy plotter.XYs, step int) plotter.XYs {
+	if step < 3 || len(xy) <= 2 {
+		return xy
+	}
+	out := make(plotter.XYs, 0, 2*(len(xy)/step+1)+2)
+	out = append(out, xy[0])
+	for a := 0; a < len(xy); a += step {
+		b := min(a+step, len(xy))
+		lo, hi := a, a
+		for i := a + 1; i < b; i++ {
+			if xy[i].Y < xy[lo].Y {
+				lo = i
+			}
+			if xy[i].Y > xy[hi].Y {
+				hi = i
+			}
+		}
+		first, second := min(lo, hi), max(lo, hi)
+		if first > 0 {
+			out = append(out, xy[first])
+		}
+		if second != first {
+			out = append(out, xy[second])
+		}
+	}
+	if last := xy[len(xy)-1]; out[len(out)-1] != last {
+		out = append(out, last)
 	}
 	return out
 }
