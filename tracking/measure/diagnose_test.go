@@ -57,6 +57,16 @@ func diagonalGoesWith(bow func(f int) float64, lost func(f int) bool, quality fu
 	}
 }
 
+// diagonalGoesHiding is diagonalGoesWith(nil, nil, nil) with more points
+// lost: those for which hidden(id, frame) is true.
+func diagonalGoesHiding(hidden func(id string, f int) bool) func(*scene) {
+	return func(s *scene) {
+		diagonalGoesWith(nil, nil, nil)(s)
+		lost := s.lost
+		s.lost = func(id string, f int) bool { return lost(id, f) || hidden(id, f) }
+	}
+}
+
 func TestDiagnoseScenarios(t *testing.T) {
 	const n = 300
 	tests := []struct {
@@ -236,13 +246,9 @@ func TestDiagnoseScenarios(t *testing.T) {
 			// no evidence; the bow reached 0.04 mm a frame x 35 frames =
 			// 1.4 mm, 2.6 times the floor, by frame 185).
 			name: "diagonal's middle hidden while it begins to bow",
-			setup: func(s *scene) {
-				diagonalGoesWith(nil, nil, nil)(s)
-				lost := s.lost
-				s.lost = func(id string, f int) bool {
-					return lost(id, f) || (id == "AB-d2-mid" && f >= 140 && f < 185)
-				}
-			},
+			setup: diagonalGoesHiding(func(id string, f int) bool {
+				return (id == "AB-d2-mid" && f >= 140 && f < 185)
+			}),
 			collapse: 206, first: "AB-d2", onset: 185, mode: ModeBraceBuckling,
 			account: []string{"began to bow at 0.18", "may have begun earlier"},
 		},
@@ -252,13 +258,9 @@ func TestDiagnoseScenarios(t *testing.T) {
 			// point and the frames (common practice: what hid the point
 			// could have pulled the tracked middle too).
 			name: "diagonal goes; its middle hidden just before its onset",
-			setup: func(s *scene) {
-				diagonalGoesWith(nil, nil, nil)(s)
-				lost := s.lost
-				s.lost = func(id string, f int) bool {
-					return lost(id, f) || (id == "AB-d2-mid" && f >= 150 && f < 157)
-				}
-			},
+			setup: diagonalGoesHiding(func(id string, f int) bool {
+				return (id == "AB-d2-mid" && f >= 150 && f < 157)
+			}),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling,
 			account: []string{"began to bow at 0.16", "point AB-d2-mid near it was hidden from view between frames 150 and 156", "check this against the evidence frames"},
 		},
@@ -267,13 +269,9 @@ func TestDiagnoseScenarios(t *testing.T) {
 			// and a point near it hidden long before (30 frames): no
 			// caution.
 			name: "diagonal goes; points hidden far from it or long before",
-			setup: func(s *scene) {
-				diagonalGoesWith(nil, nil, nil)(s)
-				lost := s.lost
-				s.lost = func(id string, f int) bool {
-					return lost(id, f) || (id == "C4" && f >= 150 && f < 157) || (id == "AB-d2-mid" && f >= 125 && f < 134)
-				}
-			},
+			setup: diagonalGoesHiding(func(id string, f int) bool {
+				return (id == "C4" && f >= 150 && f < 157) || (id == "AB-d2-mid" && f >= 125 && f < 134)
+			}),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling,
 			account: []string{"began to bow at 0.16"}, noAccount: []string{"hidden from view"},
 		},
