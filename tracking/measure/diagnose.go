@@ -1364,10 +1364,10 @@ func account(d *Diagnosis, first *memberFind, firstIsBreak bool, twRow, colRow i
 // disturbs, and can pull the member's own tracked points with it).
 const HiddenNearRows = 15
 
-// hiddenCaution returns a caution for the account when points near member
-// m (marked within half its image length of its chord),
-// its own included, were lost from view in the HiddenNearRows rows up to
-// row; "" when none were.
+// hiddenCaution returns a caution for the account when points near member m
+// (marked within half its image length of its chord), its own included,
+// were lost from view in the HiddenNearRows rows up to row; "" when none
+// were.
 func hiddenCaution(m *Member, row int, res *Result, in Input) string {
 	t := in.Tracks
 	if t == nil || in.Marks == nil || len(m.Points) < 2 || row < 0 {
