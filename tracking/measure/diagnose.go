@@ -1414,9 +1414,9 @@ func hiddenCaution(m *Member, row int, res *Result, in Input) string {
 	case len(ids) > 1:
 		who = "points " + strings.Join(ids[:len(ids)-1], ", ") + " and " + ids[len(ids)-1] + " near it were"
 	}
-	span := fmt.Sprintf("at frame %d", res.Frames[first])
+	span := "at " + fmtTime(first, res, in.CaptureFPS)
 	if lastRow > first {
-		span = fmt.Sprintf("between frames %d and %d", res.Frames[first], res.Frames[lastRow])
+		span = "between " + fmtTime(first, res, in.CaptureFPS) + " and " + fmtTime(lastRow, res, in.CaptureFPS)
 	}
 	return fmt.Sprintf("but %s hidden from view %s, so something may have passed in front of it: check this against the evidence frames", who, span)
 }

@@ -262,7 +262,7 @@ func TestDiagnoseScenarios(t *testing.T) {
 				return (id == "AB-d2-mid" && f >= 150 && f < 157)
 			}),
 			collapse: 206, first: "AB-d2", onset: 164, mode: ModeBraceBuckling,
-			account: []string{"began to bow at 0.16", "point AB-d2-mid near it was hidden from view between frames 150 and 156", "check this against the evidence frames"},
+			account: []string{"began to bow at 0.16", "point AB-d2-mid near it was hidden from view between 0.150 s (frame 150) and 0.156 s (frame 156)", "check this against the evidence frames"},
 		},
 		{
 			// The same at the top of another leg, far from the diagonal,
