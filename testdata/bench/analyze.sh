@@ -139,10 +139,10 @@ END {
 	printf "machine: %d cores, load average %s before the runs\n", cores, load
 	peak = 0
 	for (i = 1; i <= n; i++) {
-		printf "round %d: ffmpeg decode (-f null) %.2f s wall, %.2f s CPU; failframe analyze %.2f s wall, %.2f s CPU; wall ratio %.2f, CPU ratio %.2f; reading alone %.2f\n", i, d[i], fc[i], a[i], ac[i], r[i], c[i], rd[i]
+		printf "round %d: ffmpeg decode (-f null) %.2f s wall, %.2f s CPU; failframe analyze %.2f s wall, %.2f s CPU; wall ratio %.2fx, CPU ratio %.2fx; reading alone %.2fx of the ffmpeg wall time\n", i, d[i], fc[i], a[i], ac[i], r[i], c[i], rd[i]
 		if (rss[i] > peak) peak = rss[i]
 	}
 	printf "CPU time ratio (user+sys), median of %d rounds: %.2f\n", n, median(c, n)
-	printf "of the wall ratio, median of %d rounds: reading every frame through OpenCV (failframe probe --count) %.2f; failframe'"'"'s own work on top of it +%.2f\n", n, median(rd, n), median(own, n)
+	printf "of the wall ratio, median of %d rounds: reading every frame through OpenCV (failframe probe --count) %.2fx; failframe'"'"'s own work on top of it +%.2fx\n", n, median(rd, n), median(own, n)
 	printf "analyze/decode wall ratio, median of %d rounds: %.2f (target <= 1.3); peak memory: %.0f MB (target < 300 MB)\n", n, median(r, n), peak / 1024
 }' "$DIR/rounds"
